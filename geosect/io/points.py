@@ -40,6 +40,16 @@ _DEFAULT_NAMES = {
     "time": ["time", "time_utc", "origin_time", "datetime"],
     "depth_km": ["depth_km", "depth"],
     "magnitude": ["mag", "magnitude", "ml", "mw"],
+    "unit": ["unit", "unit_name", "formation", "name"],
+    "age": ["age", "period", "era"],
+    "color": ["color", "colour", "rgb"],
+    "lithology": ["lithology", "lith", "rock"],
+    "name": ["name", "fault", "fault_name", "id"],
+    "strike": ["strike_deg", "strike"],
+    "dip": ["dip_deg", "dip"],
+    "chainage_km": ["chainage_km", "distance_km", "km"],
+    "twt_s": ["twt_s", "twt", "time_s"],
+    "uncertainty_km": ["uncertainty_km", "error_km", "sigma_km"],
 }
 
 

@@ -172,16 +172,18 @@ def _numbers(values: pd.Series) -> tuple[np.ndarray, np.ndarray]:
     return num, bad
 
 
-def _swapped(x: np.ndarray, y: np.ndarray, usable: np.ndarray, geographic: bool) -> np.ndarray:
-    """Rows that lie far from the data cloud but inside it once x and y are exchanged."""
-    if usable.sum() < 3:
-        return np.zeros_like(usable)
-    cx, cy = np.median(x[usable]), np.median(y[usable])
-    d = np.hypot(x - cx, y - cy)
-    ds = np.hypot(y - cx, x - cy)
-    radius = np.quantile(d[usable], 0.8)
+def _swapped(x: np.ndarray, y: np.ndarray, candidates: np.ndarray, reference: np.ndarray,
+             geographic: bool) -> np.ndarray:
+    """Candidate rows that lie far from the reference cloud but inside it once x and y are exchanged."""
+    if reference.sum() < 3:
+        return np.zeros_like(candidates)
+    cx, cy = np.median(x[reference]), np.median(y[reference])
+    with np.errstate(invalid="ignore"):
+        d = np.hypot(x - cx, y - cy)
+        ds = np.hypot(y - cx, x - cy)
+    radius = np.quantile(d[reference], 0.8)
     tol = 0.5 if geographic else 5000.0
-    return usable & (d > 3 * radius + 2 * tol) & (ds < radius + tol)
+    return candidates & (d > 3 * radius + 2 * tol) & (ds < radius + tol)
 
 
 def read_points(spec, what: str, *, extras: Sequence[str] = ("kind", "depth", "charge", "time"),
@@ -275,10 +277,7 @@ def read_points(spec, what: str, *, extras: Sequence[str] = ("kind", "depth", "c
         out_of_range = usable & ((np.abs(x) > 180) | (np.abs(y) > 90))
     else:
         out_of_range = np.zeros(n, bool)
-    swapped = _swapped(x, y, usable & ~out_of_range, geographic)
-    if geographic:
-        # latitude out of range that fits as longitude: clearly swapped
-        swapped |= out_of_range & (np.abs(x) <= 90) & (np.abs(y) <= 180)
+    swapped = _swapped(x, y, usable, usable & ~out_of_range, geographic)
     status = set_status(status, swapped, "swapped_coordinates")
     flags = add_flag(flags, swapped, "lat_lon_swapped?" if geographic else "x_y_swapped?")
     status = set_status(status, out_of_range & ~swapped, "bad_coordinates")

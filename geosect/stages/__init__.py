@@ -1,3 +1,4 @@
 """The build stages, registered in build order by importing their modules."""
 
-from . import inputs, placing  # noqa: F401
+from . import inputs, placing  # noqa: F401  (reading, line, placing)
+from . import geometry  # noqa: F401,E402  (last: assembles geometry.gpkg from what the others produced)

@@ -47,7 +47,7 @@ def read_inputs(ctx: Context) -> None:
     s = ctx.settings
     tables = {}
     if s.stations is not None:
-        tables["stations"] = read_points(s.stations, "stations")
+        tables["stations"] = read_points(s.stations, "stations", extras=("kind", "time"))
     if s.shots is not None:
         tables["shots"] = read_points(s.shots, "shots")
     hyp = None

@@ -6,7 +6,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import InputError
-from ..io.atomic import atomic_path
+from ..io.tables import write_csv
 from ..io.dem import sample_dem
 from ..io.points import add_flag
 from ..pipeline import Context, register
@@ -102,8 +102,7 @@ def _place(ctx: Context, name: str) -> pd.DataFrame:
 def _write_points(ctx: Context, f: pd.DataFrame, filename: str) -> None:
     extra = [c for c in f.columns if c not in POINT_COLUMNS and c not in ("x_src", "y_src")]
     cols = POINT_COLUMNS + extra
-    with atomic_path(ctx.output(filename)) as tmp:
-        f[cols].to_csv(tmp, index=False, float_format="%.3f")
+    write_csv(ctx.output(filename), f[cols])
 
 
 def _height_qc(ctx: Context, name: str, f: pd.DataFrame) -> None:

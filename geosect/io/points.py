@@ -181,13 +181,16 @@ def _swapped(x: np.ndarray, y: np.ndarray, candidates: np.ndarray, reference: np
     with np.errstate(invalid="ignore"):
         d = np.hypot(x - cx, y - cy)
         ds = np.hypot(y - cx, x - cy)
-    radius = np.quantile(d[reference], 0.8)
     tol = 0.5 if geographic else 5000.0
-    return candidates & (d > 3 * radius + 2 * tol) & (ds < radius + tol)
+    far = d > 3 * np.quantile(d[reference], 0.8) + 2 * tol
+    inliers = reference & ~far
+    extent = d[inliers].max() if inliers.any() else 0.0
+    return candidates & far & (ds <= extent + tol)
 
 
 def read_points(spec, what: str, *, extras: Sequence[str] = ("kind", "depth", "charge", "time"),
-                section: str | None = None, numeric_extras: Sequence[str] = ("depth", "charge")) -> PointTable:
+                section: str | None = None, numeric_extras: Sequence[str] = ("depth", "charge"),
+                flag_generated_ids: bool = True) -> PointTable:
     """Read stations, shots or another point input into a :class:`PointTable`.
 
     Parameters
@@ -197,6 +200,8 @@ def read_points(spec, what: str, *, extras: Sequence[str] = ("kind", "depth", "c
     what : str
         ``"stations"``, ``"shots"``...: used in messages.
     extras : roles to carry when present (``depth`` → ``depth_m``, ``charge`` → ``charge_kg``).
+    numeric_extras : the extras that must be numbers (a bad value gives status ``bad_<role>``).
+    flag_generated_ids : flag rows whose id had to be made up (no id column).
 
     Raises
     ------
@@ -308,7 +313,8 @@ def read_points(spec, what: str, *, extras: Sequence[str] = ("kind", "depth", "c
     rows = np.arange(1, n + 1)
     if idcol is None:
         ids = pd.Series([f"{what[:2]}{r}" for r in rows], dtype=object)
-        flags = add_flag(flags, np.ones(n, bool), "id_generated")
+        if flag_generated_ids:
+            flags = add_flag(flags, np.ones(n, bool), "id_generated")
     else:
         ids = attrs[idcol].astype(str).str.strip().reset_index(drop=True)
         missing = (ids == "").to_numpy()

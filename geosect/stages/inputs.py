@@ -53,11 +53,12 @@ def read_inputs(ctx: Context) -> None:
     hyp = None
     if s.hypocentres is not None:
         hyp = read_points(s.hypocentres, "hypocentres", extras=("depth_km", "magnitude", "time"),
-                          numeric_extras=("depth_km", "magnitude"))
+                          numeric_extras=("depth_km", "magnitude"), flag_generated_ids=False)
 
     # the working CRS: from the project file, or the UTM zone of the data
-    lons = [t.frame["lon"].to_numpy() for t in tables.values()]
-    lats = [t.frame["lat"].to_numpy() for t in tables.values()]
+    usable = {k: t.frame["status"].to_numpy() == "ok" for k, t in tables.items()}
+    lons = [t.frame["lon"].to_numpy()[usable[k]] for k, t in tables.items()]
+    lats = [t.frame["lat"].to_numpy()[usable[k]] for k, t in tables.items()]
     line_lonlat = None
     if s.line.method == "file" and s.line.file is not None:
         from pyproj import CRS

@@ -710,6 +710,7 @@ bend_threshold_deg = 20.0
 bin_m = 50.0
 line = "smooth"              # "section" or "smooth" (smoothed through the midpoint cloud)
 smoothing_km = 2.0
+max_offset_km = 12.0         # near-vertical pairs of the dense segment only
 
 [dem]
 file = "dem.tif"

@@ -6,7 +6,6 @@ Everything here is vectorised over the stations of one shot; callers loop over s
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Iterator
 
@@ -15,7 +14,7 @@ import pandas as pd
 
 from .errors import InputError
 
-__all__ = ["PairGeometry", "shot_pairs", "recorded_pairs", "iter_shot_gathers", "PAIR_FLAGS"]
+__all__ = ["pair_index", "pair_geometry", "recorded_pairs", "iter_shot_gathers", "PAIR_FLAGS"]
 
 PAIR_FLAGS = {
     "offset_mismatch": "geodesic and along-line offsets differ by more than the set fraction (crooked line or fan "
@@ -25,46 +24,45 @@ PAIR_FLAGS = {
 }
 
 
-@dataclass
-class PairGeometry:
-    """Geometry of the pairs of one shot (arrays of one length, one entry per station)."""
-
-    frame: pd.DataFrame
-
-
 def _geod_inv(lon1, lat1, lon2, lat2):
     from .geodesy import geodesic_offset
 
     return geodesic_offset(lon1, lat1, lon2, lat2)
 
 
-def shot_pairs(shot: pd.Series, stations: pd.DataFrame, line, *, bin_grid=None, binning_line=None,
-               offset_mismatch: float = 0.05, max_offset_m: float | None = None) -> pd.DataFrame:
-    """Pair geometry of one shot with the given stations.
+def pair_index(n_shots: int, n_stations: int) -> tuple[np.ndarray, np.ndarray]:
+    """Every shot with every station: index arrays (shot index, station index), shot-major order."""
+    si = np.repeat(np.arange(n_shots), n_stations)
+    ri = np.tile(np.arange(n_stations), n_shots)
+    return si, ri
+
+
+def pair_geometry(shots: pd.DataFrame, stations: pd.DataFrame, si: np.ndarray, ri: np.ndarray, line, *,
+                  offset_mismatch: float = 0.05, max_offset_m: float | None = None) -> pd.DataFrame:
+    """Geometry of source–receiver pairs, vectorised over the pairs.
 
     Parameters
     ----------
-    shot : a placed shot (``id, easting, northing, lon, lat, chainage_m``).
-    stations : placed stations, the receivers of this shot.
+    shots, stations : placed shots and stations (``id, easting, northing, lon, lat, chainage_m``).
+    si, ri : index arrays into ``shots`` and ``stations`` (positional), one entry per pair.
     line : the section :class:`~geosect.line.SurveyLine`.
-    bin_grid : optional :class:`~geosect.binning.BinGrid` on the binning line.
     offset_mismatch : flag pairs whose ``|offset − |line_offset|| / offset`` exceeds this fraction.
     max_offset_m : pairs beyond it get status ``beyond_max_offset``.
 
     Returns
     -------
-    DataFrame with ``shot_id, station_id, offset_m`` (geodesic), ``azimuth_deg`` (source to receiver,
+    DataFrame with ``shot_id, station_id, offset_m`` (geodesic, m), ``azimuth_deg`` (source to receiver,
     clockwise from north), ``line_offset_m`` (receiver minus source chainage), ``midpoint_easting,
-    midpoint_northing, midpoint_lon, midpoint_lat, midpoint_chainage_m, midpoint_crossline_m, cmp_bin`` and
-    ``status, flags``.
+    midpoint_northing, midpoint_chainage_m, midpoint_crossline_m``, ``status, flags``.
     """
-    n = len(stations)
-    off, az = _geod_inv(np.full(n, shot["lon"]), np.full(n, shot["lat"]), stations["lon"].to_numpy(),
-                        stations["lat"].to_numpy())
-    line_off = stations["chainage_m"].to_numpy() - shot["chainage_m"]
-    me = 0.5 * (shot["easting"] + stations["easting"].to_numpy())
-    mn = 0.5 * (shot["northing"] + stations["northing"].to_numpy())
+    sh = {c: shots[c].to_numpy()[si] for c in ("easting", "northing", "lon", "lat", "chainage_m")}
+    st = {c: stations[c].to_numpy()[ri] for c in ("easting", "northing", "lon", "lat", "chainage_m")}
+    off, az = _geod_inv(sh["lon"], sh["lat"], st["lon"], st["lat"])
+    line_off = st["chainage_m"] - sh["chainage_m"]
+    me = 0.5 * (sh["easting"] + st["easting"])
+    mn = 0.5 * (sh["northing"] + st["northing"])
     mch, mxl = line.locate(me, mn)
+    n = len(si)
     flags = np.full(n, "", dtype=object)
     with np.errstate(invalid="ignore", divide="ignore"):
         mism = np.abs(off - np.abs(line_off)) > offset_mismatch * np.maximum(off, 1.0)
@@ -72,24 +70,12 @@ def shot_pairs(shot: pd.Series, stations: pd.DataFrame, line, *, bin_grid=None, 
     status = np.full(n, "ok", dtype=object)
     if max_offset_m is not None:
         status[off > max_offset_m] = "beyond_max_offset"
-    out = pd.DataFrame({
-        "shot_id": shot["id"], "station_id": stations["id"].to_numpy(), "offset_m": off, "azimuth_deg": az,
-        "line_offset_m": line_off, "midpoint_easting": me, "midpoint_northing": mn,
-        "midpoint_chainage_m": mch, "midpoint_crossline_m": mxl,
+    return pd.DataFrame({
+        "shot_id": shots["id"].to_numpy()[si], "station_id": stations["id"].to_numpy()[ri],
+        "offset_m": off, "azimuth_deg": az, "line_offset_m": line_off,
+        "midpoint_easting": me, "midpoint_northing": mn, "midpoint_chainage_m": mch, "midpoint_crossline_m": mxl,
+        "status": status, "flags": flags,
     })
-    if bin_grid is not None:
-        from .binning import bin_pairs
-
-        b = bin_pairs(bin_grid, np.full(n, shot["easting"]), np.full(n, shot["northing"]),
-                      stations["easting"].to_numpy(), stations["northing"].to_numpy())
-        out["cmp_bin"] = b.bin_index
-        out["binning_chainage_m"] = b.chainage_m
-        outside = b.bin_index < 0
-        flags = np.where(outside, np.where(flags == "", "midpoint_off_binning_line",
-                                           flags + ";midpoint_off_binning_line"), flags)
-    out["status"] = status
-    out["flags"] = flags
-    return out
 
 
 def recorded_pairs(path: Path, shots: pd.DataFrame, stations: pd.DataFrame) -> pd.DataFrame:

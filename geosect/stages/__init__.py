@@ -1,4 +1,5 @@
 """The build stages, registered in build order by importing their modules."""
 
 from . import inputs, placing  # noqa: F401  (reading, line, placing)
+from . import cmp  # noqa: F401,E402  (CMP bins)
 from . import geometry  # noqa: F401,E402  (last: assembles geometry.gpkg from what the others produced)

@@ -53,17 +53,15 @@ def build_line(ctx: Context) -> None:
             f"bends sharper than {s.bend_threshold_deg:g}°": len(ch)})
     if len(ch):
         sec.table(["chainage (km)", "turn (°, + = right)"], [(f"{c / 1e3:.2f}", f"{a:+.1f}") for c, a in zip(ch, ang)])
-    try:
-        from ..geodesy import grid_vs_ground
+    from ..geodesy import grid_vs_ground
 
-        gg = grid_vs_ground(line, ctx.artefacts["crs"].crs)
-        ctx.artefacts["grid_vs_ground"] = gg
-        sec.kv({"ground (geodesic) length": f"{gg['ground_length_m'] / 1e3:.3f} km",
-                "grid − ground": f"{gg['grid_length_m'] - gg['ground_length_m']:+.1f} m "
-                                 f"({gg['relative_difference'] * 1e6:+.0f} ppm)",
-                "point scale factor along the line": f"{gg['min_scale_factor']:.6f} to {gg['max_scale_factor']:.6f}"})
-    except ImportError:  # pragma: no cover - geodesy module is part of the package
-        pass
+    gg = grid_vs_ground(line, ctx.artefacts["crs"].crs)
+    ctx.artefacts["grid_vs_ground"] = gg
+    sec.kv({"length on the ellipsoid (geodesic)": f"{gg['ellipsoid_length_m'] / 1e3:.3f} km",
+            "grid − ellipsoid": f"{gg['grid_length_m'] - gg['ellipsoid_length_m']:+.1f} m "
+                                f"({(gg['grid_length_m'] / gg['ellipsoid_length_m'] - 1) * 1e6:+.0f} ppm)",
+            "point scale factor along the line": f"{gg['scale_factor_min']:.6f} to {gg['scale_factor_max']:.6f} "
+                                                 f"(largest at chainage {gg['chainage_of_max_m'] / 1e3:.1f} km)"})
 
 
 def _dem_heights(ctx: Context, f: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:

@@ -228,7 +228,7 @@ class SectionSettings:
     show_rays: bool = opt(True, "Draw ray paths.")
     max_rays: int = opt(200, "At most this many ray paths are drawn.", minimum=0)
     phases: list | None = opt(None, "Phases drawn (default: all computed).")
-    colormap: str = opt("viridis", "Matplotlib colormap for velocities.")
+    colormap: str | None = opt(None, "Matplotlib colormap for velocities (default: geosect's own).")
     geology_colours: str = opt("auto", "Where geology colours come from.", choices=("auto", "column", "age", "palette"))
     sample_spacing_m: float | None = opt(None, "Topography sample spacing along the line, m (default: a third of the "
                                          "DEM cell).", minimum=0.0, exclusive_min=True)

@@ -453,6 +453,8 @@ class SurveyLine:
         else:
             scale = 1.0
         self._eps = 1e-12 * scale  # below this, two vertices are the same point
+        # distances equal within a few units in the last place of the coordinates are ties
+        self._tie = max(1e-9, 8.0 * float(np.spacing(scale)))
         if e.size > 1:
             step = np.hypot(np.diff(e), np.diff(n))
             keep = np.concatenate([[True], step > self._eps])
@@ -694,7 +696,7 @@ class SurveyLine:
 
     def _nearest(self, e: np.ndarray, n: np.ndarray):
         bx0, bx1, by0, by1, lo, hi, left, right = self._tree
-        tie = max(self._eps, 1e-9)
+        tie = self._tie
         return _nearest_kernel(e, n, self._x, self._y, self._tx, self._ty, self._seglen, self._cum,
                                bx0, bx1, by0, by1, lo, hi, left, right, tie)
 
@@ -846,7 +848,7 @@ class SurveyLine:
         return _second_foot_kernel(e, n, self._x, self._y, self._tx, self._ty, self._seglen, self._cum,
                                    bx0, bx1, by0, by1, lo, hi, left, right,
                                    np.ascontiguousarray(dist), np.ascontiguousarray(s0),
-                                   float(ambiguity_m) + max(self._eps, 1e-9), gap)
+                                   float(ambiguity_m) + self._tie, gap)
 
     def position(self, chainage_m: Any, crossline_m: Any = 0.0) -> tuple[np.ndarray, np.ndarray]:
         """Map coordinates of a chainage and crossline distance: the inverse of :meth:`locate`.

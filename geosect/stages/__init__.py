@@ -3,4 +3,5 @@
 from . import inputs, placing  # noqa: F401  (reading, line, placing)
 from . import cmp  # noqa: F401,E402  (CMP bins)
 from . import section  # noqa: F401,E402  (topography, the depth section)
+from . import webmap  # noqa: F401,E402  (the linked map page)
 from . import geometry  # noqa: F401,E402  (last: assembles geometry.gpkg from what the others produced)

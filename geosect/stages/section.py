@@ -31,9 +31,15 @@ def _geology(ctx: Context) -> pd.DataFrame:
     g = ctx.artefacts.get("geology")
     if g is None:
         return pd.DataFrame(columns=["start_m", "end_m", "unit", "age", "color"])
+    from ..plot.colours import geology_colours
+
     g = g[g["status"] == "ok"]
     out = cut_polygons(ctx.artefacts["line"], g, ["unit", "age", "color"])
-    out["color"] = out["color"].replace({"": None})
+    # one colour per unit, decided once here (in order along the line) and shared by the section and the map
+    colours = geology_colours(list(out["unit"]) + list(g["unit"]), list(out["age"]) + list(g["age"]),
+                              list(out["color"]) + list(g["color"]), mode=ctx.settings.section.geology_colours)
+    ctx.artefacts["geology_colours"] = colours
+    out["color"] = out["unit"].map(colours)
     return out
 
 
@@ -194,7 +200,8 @@ def draw_section_figure(ctx: Context) -> None:
                           size=s.size, phases=s.phases, show_rays=s.show_rays, max_rays=s.max_rays,
                           topo_panel=s.topo_panel and len(data.topo_chainage_m) > 0,
                           topo_exaggeration=s.topo_exaggeration,
-                          colormap=s.colormap or SectionOptions().colormap, geology_colours=s.geology_colours)
+                          colormap=s.colormap or SectionOptions().colormap,
+                          geology_colours="column")  # colours were chosen in _geology()
     files = save_section(data, ctx.out_dir, opts)
     for f in files:
         ctx.output(f.name)

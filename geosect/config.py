@@ -427,11 +427,6 @@ def _check_cross(s: Settings, source: Path) -> None:
         raise ConfigError(f"line method '{s.line.method}' builds the line from the stations, but there is no "
                           "[stations] section", fix="add a [stations] section or give a line file.", file=source,
                           key="line.method")
-    for i, h in enumerate(s.horizons):
-        if h.kind == "chainage-twt" and s.model is None:
-            raise ConfigError(f"horizon '{h.name}' is given in two-way time, which needs a velocity model",
-                              fix="add a [model] section, or give the horizon in depth.", file=source,
-                              key=f"horizons[{i}].kind")
 
 
 def load_settings(project: str | Path) -> Settings:

@@ -68,8 +68,8 @@ class BinGrid:
         Bin width along the line, in metres (CMP spacing; commonly half the
         receiver spacing).
     origin_m : float
-        Chainage of the start of bin 0, in metres (may be negative; must be below
-        the line's length).
+        Chainage of the start of bin 0, in metres; ``-bin_m < origin_m < length``
+        (a negative origin centres bins on chosen chainages, e.g. ``-bin_m / 2``).
     """
 
     def __init__(self, line: SurveyLine, bin_m: float, origin_m: float = 0.0) -> None:
@@ -79,9 +79,9 @@ class BinGrid:
         if not (math.isfinite(bin_m) and bin_m > 0):
             raise LineError(f"bin width must be a positive number of metres, got {bin_m!r}.",
                             fix="give the CMP bin width in metres, e.g. 12.5")
-        if not (math.isfinite(origin_m) and origin_m < line.length):
-            raise LineError(f"bin origin {origin_m!r} m is not below the line's length "
-                            f"({line.length:.1f} m), so no bin would lie on the line.",
+        if not (math.isfinite(origin_m) and -bin_m < origin_m < line.length):
+            raise LineError(f"bin origin {origin_m!r} m is not between -bin_m ({-bin_m}) and the line's "
+                            f"length ({line.length:.1f} m): the first bin would lie wholly off the line.",
                             fix="give the chainage where bin 0 starts, between -bin_m and the line length")
         self.line = line
         self.bin_m = float(bin_m)

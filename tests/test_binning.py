@@ -37,6 +37,8 @@ def test_grid_edges_and_bin_of():
         BinGrid(line, 0.0)
     with pytest.raises(LineError, match="origin"):
         BinGrid(line, 10.0, origin_m=150.0)
+    with pytest.raises(LineError, match="origin"):
+        BinGrid(line, 10.0, origin_m=-10.0)
 
 
 def test_fold_on_a_straight_split_spread_by_hand():

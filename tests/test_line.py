@@ -412,3 +412,20 @@ def test_large_line_matches_brute_force():
     t = np.clip(((e[:, None] - ax) * dx + (n[:, None] - ay) * dy) / L2, 0, 1)
     d = np.hypot(e[:, None] - ax - t * dx, n[:, None] - ay - t * dy)
     np.testing.assert_allclose(line.distance(e, n), d.min(axis=1), atol=1e-6)
+
+
+def test_empty_input_and_docstring_examples():
+    t = LEFT.place([], [])
+    assert len(t) == 0 and list(t.columns) == ["chainage_m", "crossline_m", "status", "flags"]
+    ch, xl = LEFT.locate(np.array([]), np.array([]))
+    assert ch.size == 0 and xl.size == 0
+    # the >>> examples in the docstrings of the line, binning and geodesy modules
+    import doctest
+
+    import geosect.binning
+    import geosect.geodesy
+    import geosect.line
+
+    for mod in (geosect.line, geosect.binning, geosect.geodesy):
+        res = doctest.testmod(mod)
+        assert res.attempted > 0 and res.failed == 0, mod.__name__

@@ -364,12 +364,17 @@ def binning_line(me: Any, mn: Any, section_line: SurveyLine, *, smoothing_m: flo
                  window_m: float | None = None, name: str = "binning") -> SurveyLine:
     """A smoothed binning line through a cloud of midpoints.
 
-    The midpoints are placed on the section line, sorted by that chainage and
-    averaged in windows of ``window_m`` of section chainage; the window means,
-    in chainage order, are smoothed with :meth:`SurveyLine.smoothed` (a
-    Gaussian-weighted local linear fit along the cumulative distance, standard
-    deviation ``smoothing_m``) and resampled every ``spacing_m``.  The result
-    runs in the section line's direction.
+    The midpoints are placed on the section line (chainage ``s``, crossline ``c``).
+    Their crossline distance is smoothed as a function of section chainage with a
+    Gaussian kernel of standard deviation ``smoothing_m`` (a Nadaraya–Watson
+    kernel-weighted mean, computed on counts and sums in windows of ``window_m``),
+    the smoothed crossline is mapped back to the map at every window that has data
+    (:meth:`SurveyLine.position`), and that chain of points is smoothed once more
+    along its own length and resampled every ``spacing_m``
+    (:meth:`SurveyLine.smoothed`).  Smoothing across the line as a function of
+    chainage, rather than along the path through the window means, keeps a wide
+    midpoint cloud (long offsets, fan shots) from turning the line into a zigzag.
+    The result runs in the section line's direction.
 
     Parameters
     ----------
@@ -396,20 +401,34 @@ def binning_line(me: Any, mn: Any, section_line: SurveyLine, *, smoothing_m: flo
     if not (math.isfinite(window_m) and window_m > 0):
         raise LineError(f"window_m must be a positive number of metres, got {window_m!r}.",
                         fix="give the averaging window in metres, e.g. 50")
-    ch, _ = section_line.locate(me, mn)
-    ok = np.isfinite(ch)
+    ch, xl = section_line.locate(me, mn)
+    ok = np.isfinite(ch) & np.isfinite(xl)
     if ok.sum() < 2:
         raise LineError(f"a binning line needs at least 2 midpoints with finite coordinates, got {int(ok.sum())}.",
                         fix="check the shot and station coordinates")
-    ch, me, mn = ch[ok], me[ok], mn[ok]
-    idx = np.floor((ch - ch.min()) / window_m).astype(np.int64)
-    cnt = np.bincount(idx)
-    se = np.bincount(idx, weights=me)
-    sn = np.bincount(idx, weights=mn)
-    keep = cnt > 0
-    ae = se[keep] / cnt[keep]
-    an = sn[keep] / cnt[keep]
-    if ae.size < 2:
+    ch, xl = ch[ok], xl[ok]
+    from scipy.ndimage import gaussian_filter1d
+
+    lo = ch.min()
+    idx = np.floor((ch - lo) / window_m).astype(np.int64)
+    nwin = int(idx.max()) + 1
+    if nwin < 2:
         raise LineError(f"the midpoints span less than one averaging window ({window_m} m) of chainage.",
                         fix="use a smaller window_m or smoothing_m")
+    # local linear kernel regression of crossline on chainage (no bias at the ends of a sloping cloud):
+    # Gaussian-filtered moments of the binned data, then a 2x2 weighted least-squares fit at each window
+    u = (ch - lo) / smoothing_m  # scaled chainage keeps the moments well conditioned
+    moments = [np.bincount(idx, weights=w, minlength=nwin) for w in (np.ones_like(u), u, u * u, xl, u * xl)]
+    sigma = max(smoothing_m / window_m, 1e-6)
+    m0, m1, m2, my, muy = (gaussian_filter1d(m, sigma, mode="constant") for m in moments)
+    keep = moments[0] > 0
+    u0 = (np.flatnonzero(keep) + 0.5) * window_m / smoothing_m
+    m0, m1, m2, my, muy = (m[keep] for m in (m0, m1, m2, my, muy))
+    det = m0 * m2 - m1 * m1
+    with np.errstate(invalid="ignore", divide="ignore"):
+        slope = (m0 * muy - m1 * my) / det
+        icpt = (my - slope * m1) / m0
+        xs = np.where(np.abs(det) > 1e-9 * m0 * m0, icpt + slope * u0, my / m0)  # local mean where too few
+    sc = lo + u0 * smoothing_m
+    ae, an = section_line.position(sc, xs)
     return SurveyLine.smoothed(ae, an, smoothing_m=smoothing_m, spacing_m=spacing_m, name=name)

@@ -122,7 +122,9 @@ def _missing_reason(ctx: Context, stage: Stage, skipped: dict[str, str]) -> str 
         producer = next((s for s in _REGISTRY if need in s.provides), None)
         if producer is not None and producer.name in skipped:
             return f"needs {need!r} from stage '{producer.name}', which was skipped ({skipped[producer.name]})"
-        return f"needs {need!r}, which no earlier stage produced"
+        if producer is not None:
+            return f"needs {need!r}, which stage '{producer.name}' had nothing to make from"
+        return f"needs {need!r}, which no stage produces"
     return None
 
 

@@ -327,8 +327,11 @@ def test_draw_on_given_axes(synth):
     assert out is ax
     p = ax.transData.transform([[0.0, 0.0], [1.0, 1.0]])
     assert abs(p[1, 1] - p[0, 1]) / abs(p[1, 0] - p[0, 0]) == pytest.approx(2.0, rel=1e-6)
-    (leg,) = _by_gid(fig, "legend:all")
-    assert any("±15 km" in t.get_text() for t in leg.get_texts())
+    (leg,) = _by_gid(fig, "legend:seismicity")
+    assert "±15 km" in leg.get_title().get_text()
+    # the stations on the caller's axes too
+    (sta,) = _by_gid(fig, "stations")
+    assert sta.axes is ax and len(sta.get_offsets()) == len(synth.stations)
 
 
 def test_auto_depth_from_model(synth):

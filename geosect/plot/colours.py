@@ -20,6 +20,7 @@ import re
 from typing import Iterable, Sequence
 
 import numpy as np
+import pandas as pd
 from matplotlib import colormaps
 from matplotlib.colors import Colormap, ListedColormap, is_color_like, to_hex
 
@@ -309,9 +310,9 @@ def geology_colours(
     colours = list(colours) if colours is not None else [None] * n
     out: dict[str, str] = {}
     k = 0
-    for unit, age, col in zip(units, ages, colours):
-        if unit in out:
-            continue
+    first = pd.Series(units).drop_duplicates().index.to_numpy()  # first interval of each unit
+    for i in first:
+        unit, age, col = units[i], ages[i], colours[i]
         chosen: str | None = None
         given = col if isinstance(col, str) and col.strip() and is_color_like(col.strip()) else None
         if mode in ("auto", "column") and given is not None:

@@ -529,6 +529,8 @@ class _Ctx:
     topo_z: np.ndarray = field(default_factory=lambda: np.empty(0))  # km depth
     phase_colour: dict[str, str] = field(default_factory=dict)
     phase_label: dict[str, str] = field(default_factory=dict)
+    ray_phase: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=object))
+    ray_size: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=int))
     station_ms: float = 4.5
     topo_ve: float = 5.0
 
@@ -628,7 +630,7 @@ def _setup(data: SectionData, opts: SectionOptions, preset: Preset, cmap: Any, a
         dmax = np.nanmax(d) if np.any(np.isfinite(d)) else np.nan
         if math.isfinite(dmax) and dmax > 0:
             step = _nice(dmax / 6)
-            ybot = math.ceil(dmax * 1.03 / step) * step
+            ybot = math.ceil(dmax / step - 1e-9) * step
         else:
             ybot = max(2.0, round(0.05 * xr, 1))
     # top: room for the highest ground and the symbols standing on it
@@ -648,12 +650,17 @@ def _setup(data: SectionData, opts: SectionOptions, preset: Preset, cmap: Any, a
         ybot = ytop + max(1.0, 0.05 * xr)
     ctx.ytop, ctx.ybot = ytop, ybot
 
-    # phases in order of first appearance
-    for r in data.rays:
-        if r.phase not in ctx.phase_label or (r.label and ctx.phase_label[r.phase] == r.phase):
-            ctx.phase_label[r.phase] = r.label or r.phase
-    for p in _df_col(data.reflection_points, "phase", default="", dtype=object):
-        ctx.phase_label.setdefault(str(p), str(p))
+    # phases in order of first appearance; the label of a phase is the first one given
+    ctx.ray_phase = np.array([r.phase for r in data.rays], dtype=object)
+    ctx.ray_size = np.array([r.chainage_m.size for r in data.rays], dtype=int)
+    ray_label = pd.Series([r.label for r in data.rays], dtype=object)
+    if len(ray_label):
+        first_label = ray_label.groupby(ctx.ray_phase, sort=False).first()  # first non-null label
+        for ph in pd.unique(ctx.ray_phase):
+            lab = first_label.get(ph)
+            ctx.phase_label[str(ph)] = str(lab) if isinstance(lab, str) and lab else str(ph)
+    for ph in pd.unique(_df_col(data.reflection_points, "phase", default="", dtype=object).astype(str)):
+        ctx.phase_label.setdefault(str(ph), str(ph))
     selected = [p for p, lab in ctx.phase_label.items() if _phase_selected(opts, p, lab)]
     ctx.phase_colour = gc.phase_colours(selected)
     return ctx
@@ -689,8 +696,23 @@ def _draw_ground(ax: Axes, data: SectionData, ctx: _Ctx) -> None:
     if ctx.topo_x.size == 0:
         return
     fin = np.isfinite(ctx.topo_z)
+    # the ground is filled from the topography down to the top of the velocity model
+    # (down to the bottom of the section where there is no model)
+    bottom = np.full(ctx.topo_x.shape, ctx.ybot)
+    v = data.velocity
+    if v is not None and v.vp_ms.size and v.depth_m.size:
+        has = np.isfinite(v.vp_ms)
+        first = np.argmax(has, axis=0)
+        half = 0.5 * (v.depth_m[1] - v.depth_m[0]) if v.depth_m.size > 1 else 0.0
+        top = np.where(np.any(has, axis=0), v.depth_m[first] - half, np.nan) / 1e3
+        if v.chainage_m.size > 1:
+            model_top = np.interp(ctx.topo_x, v.chainage_m / 1e3, top, left=np.nan, right=np.nan)
+        else:
+            model_top = np.full(ctx.topo_x.shape, top[0] if top.size else np.nan)
+        bottom = np.where(np.isfinite(model_top), np.minimum(model_top + 2 * half / 1e3, ctx.ybot), ctx.ybot)
+    bottom = np.maximum(bottom, np.where(fin, ctx.topo_z, bottom))
     if np.any(fin):
-        ax.fill_between(ctx.topo_x, ctx.topo_z, ctx.ybot, where=fin, color=gc.GROUND_COLOUR, lw=0, zorder=1,
+        ax.fill_between(ctx.topo_x, ctx.topo_z, bottom, where=fin, color=gc.GROUND_COLOUR, lw=0, zorder=1,
                         interpolate=False, gid="ground")
     (line,) = ax.plot(ctx.topo_x, ctx.topo_z, color="#1b1b1b", lw=0.7, zorder=6, solid_capstyle="butt")
     line.set_gid("topography")
@@ -759,21 +781,19 @@ def _draw_coverage(ax: Axes, data: SectionData, ctx: _Ctx) -> None:
                 f"reflection coverage per {bw:g} km\n(light 1 → dark {counts_max} points)")
 
 
-def _select_rays(rays: list[RayPath], ctx: _Ctx) -> tuple[dict[str, list[RayPath]], int]:
-    by_phase: dict[str, list[RayPath]] = {}
-    for r in rays:
-        if r.phase in ctx.phase_colour and r.chainage_m.size >= 2:
-            by_phase.setdefault(r.phase, []).append(r)
-    total = sum(len(v) for v in by_phase.values())
+def _select_rays(rays: list[RayPath], ctx: _Ctx) -> tuple[dict[str, np.ndarray], int]:
+    """Indices of the rays drawn per phase: all, or evenly spaced ones sharing ``max_rays``."""
+    usable = np.isin(ctx.ray_phase, list(ctx.phase_colour)) & (ctx.ray_size >= 2)
+    by_phase = {p: np.nonzero(usable & (ctx.ray_phase == p))[0] for p in ctx.phase_colour}
+    by_phase = {p: i for p, i in by_phase.items() if i.size}
+    total = int(usable.sum())
     limit = ctx.opts.max_rays
     if total <= limit:
         return by_phase, total
     out = {}
-    for p, rs in by_phase.items():
-        quota = max(1, int(round(limit * len(rs) / total))) if limit > 0 else 0
-        quota = min(quota, len(rs))
-        idx = np.unique(np.linspace(0, len(rs) - 1, quota).round().astype(int)) if quota else np.empty(0, int)
-        out[p] = [rs[i] for i in idx]
+    for p, idx in by_phase.items():
+        quota = min(max(1, int(round(limit * idx.size / total))), idx.size) if limit > 0 else 0
+        out[p] = idx[np.unique(np.linspace(0, idx.size - 1, quota).round().astype(int))] if quota else idx[:0]
     return out, total
 
 
@@ -782,11 +802,13 @@ def _draw_rays(ax: Axes, data: SectionData, ctx: _Ctx) -> None:
         return
     chosen, total = _select_rays(data.rays, ctx)
     n_drawn = 0
-    for phase, rs in chosen.items():
-        if not rs:
+    gap = np.array([np.nan])
+    for phase, idx in chosen.items():
+        if not idx.size:
             continue
-        xs = np.concatenate([np.append(r.chainage_m, np.nan) for r in rs]) / 1e3
-        zs = np.concatenate([np.append(r.depth_m, np.nan) for r in rs]) / 1e3
+        rs = [data.rays[i] for i in idx]  # at most max_rays paths, joined with NaN breaks
+        xs = np.concatenate([a for r in rs for a in (r.chainage_m, gap)]) / 1e3
+        zs = np.concatenate([a for r in rs for a in (r.depth_m, gap)]) / 1e3
         (ln,) = ax.plot(xs, zs, color=ctx.phase_colour[phase], lw=0.35, alpha=0.6, zorder=3, solid_capstyle="round")
         ln.set_gid(f"rays:{phase}")
         n_drawn += len(rs)
@@ -832,11 +854,11 @@ def _draw_points(ax: Axes, data: SectionData, ctx: _Ctx) -> None:
 
 
 def _phase_legend(ctx: _Ctx, data: SectionData) -> None:
-    drawn_rays = ctx.opts.show_rays and any(r.phase in ctx.phase_colour for r in data.rays)
+    ray_phases = set(pd.unique(ctx.ray_phase[ctx.ray_size >= 2])) if ctx.opts.show_rays else set()
     rp_phases = set(_df_col(data.reflection_points, "phase", default="", dtype=object).astype(str))
     for p, c in ctx.phase_colour.items():
         has_pts = p in rp_phases
-        has_rays = drawn_rays and any(r.phase == p for r in data.rays)
+        has_rays = p in ray_phases
         if not (has_pts or has_rays):
             continue
         h = Line2D([], [], color=c, lw=0.9 if has_rays else 0, marker="o" if has_pts else None, ms=2.8,
@@ -997,7 +1019,7 @@ def _draw_survey(ax: Axes, data: SectionData, ctx: _Ctx) -> None:
         used_classes.update(np.unique(cls[inside & known & good]).tolist())
         any_unknown |= bool(np.any(inside & ~known & good))
         any_bad |= bool(np.any(inside & ~good))
-        ctx.add("survey", Line2D([], [], ls="", marker=marker, ms=ms * (0.9 if name == "stations" else 0.75),
+        ctx.add("survey", Line2D([], [], ls="", marker=marker, ms=ms * (1.3 if name == "stations" else 0.75),
                                  mfc="#9a9a9a", mec="#111111", mew=0.45), "station" if name == "stations" else "shot")
     if used_classes or any_unknown:
         ctx.titles["survey"] = "Survey (fill: crossline distance)"
@@ -1006,7 +1028,7 @@ def _draw_survey(ax: Axes, data: SectionData, ctx: _Ctx) -> None:
         if any_unknown:
             ctx.add("survey", Patch(fc="#e6e6e6", ec="#111111", lw=0.45), "crossline unknown")
     if any_bad:
-        ctx.add("survey", Line2D([], [], ls="", marker=_TRIANGLE, ms=ctx.station_ms * 0.9, mfc="none",
+        ctx.add("survey", Line2D([], [], ls="", marker=_TRIANGLE, ms=ctx.station_ms * 1.3, mfc="none",
                                  mec="#c62828", mew=0.45), "not usable (status)")
     if skipped:
         ctx.notes.append(f"{skipped} stations or shots without chainage or beyond the line ends are not drawn.")
@@ -1115,9 +1137,7 @@ def _draw_strip(sax: Axes, data: SectionData, ctx: _Ctx) -> None:
             bars = sax.broken_barh(list(zip(lo[ok], hi[ok] - lo[ok])), (0, 1),
                                    facecolors=[colour_of[u] for u in units[ok]], edgecolors="white", linewidths=0.3)
             bars.set_gid("geology")
-        first_age: dict[str, Any] = {}
-        for u, a in zip(units, ages):
-            first_age.setdefault(u, a)
+        first_age = pd.Series(ages, dtype=object).groupby(units, sort=False).first().to_dict()
         for u, c in colour_of.items():
             a = first_age.get(u)
             lab = f"{u} ({a})" if isinstance(a, str) and a.strip() and a.strip().lower() != u.lower() else u
@@ -1272,12 +1292,18 @@ def _header_labels(host: Axes, data: SectionData, ctx: _Ctx, renderer: Any, bend
                  for xi, ai in zip(x[m], ang[m])]
         bends.sort(key=lambda d: d["x"])
         dropped = _place_row_labels(bh, bends, ctx, renderer, placed)
-        rows_used = np.array([it.get("row", 0 if inside else 1) for it in bends], dtype=int)
+        rows_used = np.array([it.get("row", -1) for it in bends], dtype=int)
         xb = np.array([it["x"] for it in bends])
         for r in np.unique(rows_used):
-            tr = _row_transform(bh, int(r), ctx, 0.0, -fs * 0.45 if inside else fs * 0.36, inside=inside)
-            sc = bh.scatter(xb[rows_used == r], np.ones(int(np.sum(rows_used == r))), marker="v", s=ms**2,
-                              color="#6d6d6d", transform=tr, clip_on=False, zorder=6, linewidths=0)
+            if r >= 0:  # beside its angle
+                tr = _row_transform(bh, int(r), ctx, 0.0, -fs * 0.45 if inside else fs * 0.36, inside=inside)
+                size = ms
+            else:  # no room for the angle: a smaller mark on the top edge
+                tr = mtransforms.offset_copy(mtransforms.blended_transform_factory(bh.transData, bh.transAxes),
+                                             fig=bh.figure, y=-fs * 0.3 if inside else fs * 0.3, units="points")
+                size = ms * 0.7
+            sc = bh.scatter(xb[rows_used == r], np.ones(int(np.sum(rows_used == r))), marker="v", s=size**2,
+                            color="#6d6d6d", transform=tr, clip_on=False, zorder=6, linewidths=0)
             sc.set_gid("bends")
         if bends:
             ctx.add("survey", Line2D([], [], ls="", marker="v", ms=fs * 0.6, color="#6d6d6d"), "bend of the line (angle)")
@@ -1359,6 +1385,8 @@ def _draw_topo_panel(tax: Axes, data: SectionData, ctx: _Ctx, aw_mm: float, th_m
 
 def _end_labels(top: Axes, data: SectionData, ctx: _Ctx, renderer: Any, offset_pt: float) -> None:
     p = ctx.preset
+    labels: list[Any] = []
+    notes: list[tuple[Any, str, float]] = []
     for side, label, az in (("left", data.start_label, data.start_azimuth_deg),
                             ("right", data.end_label, data.end_azimuth_deg)):
         if not (label and str(label).strip()):
@@ -1368,6 +1396,7 @@ def _end_labels(top: Axes, data: SectionData, ctx: _Ctx, renderer: Any, offset_p
                          textcoords="offset points", ha=side, va="bottom", fontsize=p.body_pt, fontweight="bold",
                          annotation_clip=False)
         t.set_gid(f"end-label:{side}")
+        labels.append(t)
         if az is not None and math.isfinite(az):
             w = t.get_window_extent(renderer).width * 72 / top.figure.dpi
             note = f"line heads {az % 360:03.0f}°"
@@ -1376,6 +1405,14 @@ def _end_labels(top: Axes, data: SectionData, ctx: _Ctx, renderer: Any, offset_p
                              textcoords="offset points", ha=side, va="bottom", fontsize=p.small_pt, color="#444444",
                              annotation_clip=False)
             n.set_gid(f"end-azimuth:{side}")
+            notes.append((n, label, az))
+    boxes = [a.get_window_extent(renderer) for a in labels + [n for n, _, _ in notes]]
+    crowded = any(boxes[i].overlaps(boxes[j]) for i in range(len(boxes)) for j in range(i + 1, len(boxes)))
+    if crowded and notes:  # too narrow for the azimuths beside the labels: say them in the caption
+        for n, _, _ in notes:
+            n.remove()
+        ctx.notes.append("Line azimuth " + ", ".join(f"{az % 360:03.0f}° at the {str(lab).strip()} end"
+                                                       for _, lab, az in notes) + ".")
 
 
 # ======================================================================================
@@ -1564,15 +1601,7 @@ def _full_figure(data: SectionData, opts: SectionOptions, preset: Preset, cmap: 
     if ctx.mesh is not None:
         (cx, cy) = pos[0]
         cax = fig.add_axes(rect(ml + cx, y + cy + 0.3 * P.small_pt * pt, cb_w, 2.2))
-        cb = fig.colorbar(ctx.mesh, cax=cax, orientation="horizontal")
-        cb.set_label("P velocity (km/s)", fontsize=P.small_pt, labelpad=1.5)
-        cb.ax.tick_params(labelsize=P.small_pt, width=P.line_pt, length=2.0, pad=1.0)
-        cb.outline.set_linewidth(P.line_pt * 0.8)
-        if ctx.contours is not None:
-            cb.add_lines(ctx.contours)
-            for coll in cb.ax.collections[-1:]:
-                coll.set_linewidth(0.35)
-        cax.set_gid("colorbar")
+        _add_colorbar(fig, cax, ctx)
         leg_pos = pos[1:]
     else:
         leg_pos = pos
@@ -1602,8 +1631,27 @@ def _full_figure(data: SectionData, opts: SectionOptions, preset: Preset, cmap: 
     return ax
 
 
+def _add_colorbar(fig: Figure, cax: Axes, ctx: _Ctx) -> None:
+    P = ctx.preset
+    cb = fig.colorbar(ctx.mesh, cax=cax, orientation="horizontal")
+    cb.set_label("P velocity (km/s)", fontsize=P.small_pt, labelpad=1.5)
+    cb.ax.tick_params(labelsize=P.small_pt, width=P.line_pt, length=2.0, pad=1.0)
+    cb.outline.set_linewidth(P.line_pt * 0.8)
+    if ctx.contours is not None:
+        cb.add_lines(ctx.contours)
+        for coll in cb.ax.collections[-1:]:
+            coll.set_linewidth(0.35)
+    cax.set_gid("colorbar")
+
+
 def _into_axes(ax: Axes, data: SectionData, opts: SectionOptions, preset: Preset, cmap: Any) -> Axes:
-    """Draw on a caller's axes: the section, a geology strip on top, one legend below."""
+    """Draw on a caller's axes: the section, a geology strip and labels on top, the key below.
+
+    The key (colour bar and legends) is anchored to the axes below its x label; leave room
+    for it in the figure (or save with ``bbox_inches='tight'``).
+    """
+    P = preset
+    pt = PT_MM
     fig = ax.figure
     renderer = fig.canvas.get_renderer() if hasattr(fig.canvas, "get_renderer") else fig._get_renderer()
     bb = ax.get_window_extent(renderer)
@@ -1611,39 +1659,49 @@ def _into_axes(ax: Axes, data: SectionData, opts: SectionOptions, preset: Preset
     _draw_main(ax, data, ctx)
     ax.apply_aspect()
     bb = ax.get_window_extent(renderer)
+    w_mm = max(bb.width / fig.dpi * 25.4, 1.0)
     h_mm = max(bb.height / fig.dpi * 25.4, 1.0)
     host = ax
     if len(data.geology) or len(data.faults):
+        gap = 0.0
         frac = (2.6 if len(data.geology) else 1.4) / h_mm
-        sax = ax.inset_axes((0.0, 1.0, 1.0, frac), sharex=ax)
+        sax = ax.inset_axes((0.0, 1.0 + gap, 1.0, frac), sharex=ax)
         _draw_strip(sax, data, ctx)
+        ax.set_xlim(ctx.x0, ctx.x1)
         host = sax
-    if len(data.faults) or len(data.bends):
+    header_rows = 2 if (len(data.faults) or len(data.bends)) else 0
+    if header_rows:
         _header_labels(host, data, ctx, renderer)
     _place_scalebar(ax, data, ctx, renderer)
     _interface_labels(ax, data, ctx, renderer)
-    if ctx.mesh is not None:
-        w_mm = bb.width / fig.dpi * 25.4
-        cax = ax.inset_axes((1.0 + 12.0 / w_mm, 0.0, 2.2 / w_mm, 1.0))
-        cb = fig.colorbar(ctx.mesh, cax=cax, orientation="vertical")
-        cb.set_label("P velocity (km/s)", fontsize=preset.small_pt)
-        cb.ax.tick_params(labelsize=preset.small_pt)
-        cax.set_gid("colorbar")
-    handles, labels = [], []
-    for g in _GROUP_ORDER:
-        for h, lab in ctx.legends.get(g, []):
-            if g == "seismicity":
-                lab = f"{lab} — {ctx.titles.get('seismicity', '').lower()}"
-            handles.append(h)
-            labels.append(lab)
-    if handles:
-        from matplotlib.legend_handler import HandlerTuple
+    if str(data.start_label).strip() or str(data.end_label).strip():
+        _end_labels(host, data, ctx, renderer, 2.0 + (header_rows * P.small_pt * 1.25 + 1.0 if header_rows else 0.0))
 
-        leg = ax.legend(handles, labels, loc="upper left", bbox_to_anchor=(0.0, -0.12), ncols=3, frameon=False,
-                        fontsize=preset.small_pt, handler_map={tuple: HandlerTuple(ndivide=None, pad=0.0)})
-        leg.set_gid("legend:all")
+    # the key, anchored to the axes below the x label
+    xlab_mm = (P.small_pt * 1.3 + P.body_pt * 1.3 + 5.0) * pt
+    legends = _build_key(fig, ctx, renderer, w_mm)
+    cells: list[tuple[float, float]] = []
+    cb_w = 0.0
+    if ctx.mesh is not None:
+        cb_w = min(55.0, 0.45 * w_mm)
+        cells.append((cb_w + 4.0, 2.2 + (2 * P.small_pt * 1.3 + 2.0) * pt))
+    cells += [(w, h) for _, w, h in legends]
+    pos, _ = _flow(cells, w_mm, 3.0)
+    if ctx.mesh is not None:
+        cx, cy = pos[0]
+        top = xlab_mm + cy + 0.3 * P.small_pt * pt
+        cax = ax.inset_axes((cx / w_mm, -(top + 2.2) / h_mm, cb_w / w_mm, 2.2 / h_mm))
+        _add_colorbar(fig, cax, ctx)
+        pos = pos[1:]
+    for (leg, _, _), (lx, ly) in zip(legends, pos):
+        leg.set_bbox_to_anchor((lx / w_mm, -(xlab_mm + ly) / h_mm), transform=ax.transAxes)
     if data.title:
-        ax.set_title(data.title, fontsize=preset.title_pt, fontweight="bold", loc="left")
+        above_pt = 3.0 + (header_rows * P.small_pt * 1.25 + 1.0 if header_rows else 0.0)
+        if str(data.start_label).strip() or str(data.end_label).strip():
+            above_pt += P.body_pt * 1.5
+        host_top = host.get_window_extent(renderer).y1
+        y = (host_top - bb.y0 + above_pt / 72.0 * fig.dpi) / bb.height
+        ax.set_title(data.title, fontsize=P.title_pt, fontweight="bold", loc="left", y=y, pad=0.0)
     return ax
 
 

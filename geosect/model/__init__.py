@@ -1,0 +1,28 @@
+"""Layered velocity models, exact 1D travel times, Fresnel zones and the model file.
+
+The public pieces:
+
+* :class:`LayeredModel` (1D or 2D, named interfaces, topography on top) and
+  its parts :class:`Interface`, :class:`Layer`;
+* :func:`parse_phase`, :class:`Phase`, :func:`iaspei_label`;
+* :class:`RaySolution`, returned by :meth:`LayeredModel.solve`;
+* :func:`read_model`, :func:`write_model` (the TOML model file);
+* :func:`fresnel_radius`, :func:`fresnel_zone`;
+* :func:`sample_model_toml` (the invented sample project's model).
+"""
+
+from geosect.model.layered import LINE_SIGNATURE_KEYS, Interface, Layer, LayeredModel
+from geosect.model.oned import STATUS_CODES, RaySolution
+from geosect.model.phases import Phase, iaspei_label, parse_phase
+
+__all__ = [
+    "LayeredModel",
+    "Interface",
+    "Layer",
+    "LINE_SIGNATURE_KEYS",
+    "RaySolution",
+    "STATUS_CODES",
+    "Phase",
+    "parse_phase",
+    "iaspei_label",
+]

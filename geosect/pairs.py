@@ -38,7 +38,8 @@ def pair_index(n_shots: int, n_stations: int) -> tuple[np.ndarray, np.ndarray]:
 
 
 def pair_geometry(shots: pd.DataFrame, stations: pd.DataFrame, si: np.ndarray, ri: np.ndarray, line, *,
-                  offset_mismatch: float = 0.05, max_offset_m: float | None = None) -> pd.DataFrame:
+                  offset_mismatch: float = 0.05, max_offset_m: float | None = None,
+                  mismatch_floor_m: float = 250.0) -> pd.DataFrame:
     """Geometry of source–receiver pairs, vectorised over the pairs.
 
     Parameters
@@ -46,7 +47,9 @@ def pair_geometry(shots: pd.DataFrame, stations: pd.DataFrame, si: np.ndarray, r
     shots, stations : placed shots and stations (``id, easting, northing, lon, lat, chainage_m``).
     si, ri : index arrays into ``shots`` and ``stations`` (positional), one entry per pair.
     line : the section :class:`~geosect.line.SurveyLine`.
-    offset_mismatch : flag pairs whose ``|offset − |line_offset|| / offset`` exceeds this fraction.
+    offset_mismatch : flag pairs whose ``|offset − |line_offset||`` exceeds this fraction of the offset...
+    mismatch_floor_m : ...and this many metres (so that near-vertical pairs a few tens of metres off the line
+        are not flagged).
     max_offset_m : pairs beyond it get status ``beyond_max_offset``.
 
     Returns
@@ -65,7 +68,7 @@ def pair_geometry(shots: pd.DataFrame, stations: pd.DataFrame, si: np.ndarray, r
     n = len(si)
     flags = np.full(n, "", dtype=object)
     with np.errstate(invalid="ignore", divide="ignore"):
-        mism = np.abs(off - np.abs(line_off)) > offset_mismatch * np.maximum(off, 1.0)
+        mism = np.abs(off - np.abs(line_off)) > np.maximum(offset_mismatch * off, mismatch_floor_m)
     flags[mism] = "offset_mismatch"
     status = np.full(n, "ok", dtype=object)
     if max_offset_m is not None:

@@ -1,0 +1,281 @@
+"""Stages: load the velocity model; travel times and reflection points for every pair and phase (rays.csv).
+
+The rays stage works shot by shot and appends each shot's rows to ``rays.csv``
+(a temporary file renamed at the end), so its memory does not grow with the
+number of pairs.  Tables of more than :data:`~geosect.io.tables.PARQUET_ROWS`
+rows are also written as Parquet.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from ..crs import to_lonlat
+from ..errors import InputError
+from ..io.atomic import atomic_path
+from ..io.tables import PARQUET_ROWS, round_for_output
+from ..pairs import iter_shot_gathers, pair_geometry, recorded_pairs
+from ..pipeline import Context, register
+from ..report import md_escape
+
+__all__ = ["load_model", "compute_rays", "RAY_COLUMNS"]
+
+RAY_COLUMNS = ["shot_id", "station_id", "phase", "offset_m", "line_offset_m", "midpoint_chainage_m", "time_s",
+               "point_chainage_m", "point_depth_m", "point_easting", "point_northing", "point_lon", "point_lat",
+               "fresnel_inline_m", "fresnel_crossline_m", "status", "flags"]
+EXTRA_COLUMNS = ["azimuth_deg", "midpoint_easting", "midpoint_northing", "midpoint_crossline_m", "incidence_deg",
+                 "ray_parameter_s_per_km", "method"]
+
+#: Offsets beyond which 'auto' uses the spherical Earth for 1D times (common practice, no source: at 100 km the
+#: flat-Earth error of a Moho head wave is a few tens of ms, comparable to a good pick's uncertainty).
+SPHERICAL_FROM_M = 100e3
+
+
+@register("model", "loading the velocity model", needs=("settings:model", "line"), provides=("model",),
+          in_check=True)
+def load_model(ctx: Context) -> None:
+    from ..model.modelfile import read_model
+
+    s = ctx.settings
+    model = read_model(s.model.file)
+    line = ctx.artefacts["line"]
+    if not model.is_1d:
+        model.check_line(line_signature(line), tol_m=max(1.0, 1e-6 * line.length))
+    topo = ctx.artefacts.get("topography")
+    if model.top == "dem":
+        if topo is None:
+            raise InputError("the model's top surface is the DEM, but the project has no DEM", file=s.model.file,
+                             key="surface", fix="add a [dem] section to the project file, or make the model's "
+                             "top surface flat at the datum.")
+        ok = np.isfinite(topo["elevation_m"].to_numpy())
+        model.set_topography(topo["chainage_m"].to_numpy()[ok], topo["elevation_m"].to_numpy()[ok])
+    ctx.artefacts["model"] = model
+    sec = ctx.report.section("Velocity model")
+    kind = "1D (flat layers)" if model.is_1d else "2D (interfaces and velocities vary along the line)"
+    sec.kv({"file": md_escape(s.model.file.name), "kind": kind,
+            "interfaces": ", ".join(md_escape(n) for n in model.interface_names),
+            "layers": ", ".join(md_escape(n) for n in model.layer_names)})
+    notes = list(getattr(model, "notes", []))
+    if notes:
+        sec.bullets(md_escape(n) for n in notes)
+    sec.text("Sources and receivers above a flat model top lie in the top layer, whose velocity law continues "
+             "upward to them.")
+
+
+def line_signature(line) -> dict:
+    """The signature a 2D model records of its section line: end points and length, metres."""
+    (se, sn), (ee, en) = line.start, line.end
+    return {"start_e": se, "start_n": sn, "end_e": ee, "end_n": en, "length_m": line.length}
+
+
+def _earth(ctx: Context, max_offset: float) -> bool:
+    mode = ctx.settings.model.earth
+    if mode == "auto":
+        return max_offset > SPHERICAL_FROM_M
+    return mode == "spherical"
+
+
+def _fresnel(model, phase, sol, offset_m, zs, zr, freq):
+    """Fresnel semi-axes at the reflection points (NaN where there is none)."""
+    from ..model.fresnel import fresnel_semi_axes
+
+    return fresnel_semi_axes(model, phase, sol, offset_m, source_depth_m=zs, receiver_depth_m=zr, frequency_hz=freq)
+
+
+def _solve_1d(model, phase, offset, zs, zr, spherical):
+    return model.solve(offset, phase, source_depth_m=zs, receiver_depth_m=zr, spherical=spherical)
+
+
+def _solve_columns(model, phase, geom, zs, zr, spherical, group_m: float = 2000.0):
+    """A 2D model solved as 1D columns under each pair's midpoint (grouped by midpoint chainage).
+
+    This is the layered-earth approximation under the midpoint: exact where the model is laterally uniform
+    over the ray's footprint; the rows are flagged ``column_at_midpoint``.
+    """
+    from ..model.oned import RaySolution  # noqa: F401  (documented return type)
+
+    mch = geom["midpoint_chainage_m"].to_numpy()
+    key = np.floor(mch / group_m).astype(np.int64)
+    n = len(mch)
+    out = {k: np.full(n, np.nan) for k in ("time_s", "p_s_per_m", "point_distance_m", "point_depth_m",
+                                           "incidence_deg")}
+    status = np.full(n, "no_ray", dtype=object)
+    off = geom["offset_m"].to_numpy()
+    for k in np.unique(key):  # a loop over groups of midpoints (columns), not over pairs
+        sel = np.flatnonzero(key == k)
+        col = model.column(float((k + 0.5) * group_m))
+        sol = col.solve(off[sel], phase, source_depth_m=zs[sel], receiver_depth_m=zr[sel], spherical=spherical)
+        for name in out:
+            out[name][sel] = getattr(sol, name)
+        status[sel] = sol.status
+    return out, status
+
+
+def _source_depth(shot: pd.Series) -> float:
+    elev = shot["elevation_m"] if np.isfinite(shot["elevation_m"]) else shot["dem_elevation_m"]
+    elev = 0.0 if not np.isfinite(elev) else float(elev)
+    depth = shot.get("depth_m", 0.0)
+    depth = 0.0 if depth is None or not np.isfinite(depth) else float(depth)
+    return -elev + depth
+
+
+def _receiver_depth(stations: pd.DataFrame) -> np.ndarray:
+    elev = stations["elevation_m"].where(np.isfinite(stations["elevation_m"]), stations["dem_elevation_m"])
+    return -np.nan_to_num(elev.to_numpy(float), nan=0.0)
+
+
+@register("rays", "travel times and reflection points", needs=("placed_stations", "placed_shots", "model"),
+          provides=("rays", "midpoints", "reflection_points"))
+def compute_rays(ctx: Context) -> None:
+    s = ctx.settings
+    model = ctx.artefacts["model"]
+    line = ctx.artefacts["line"]
+    crs = ctx.artefacts["crs"].crs
+    shots = ctx.artefacts["placed_shots"]
+    stations = ctx.artefacts["placed_stations"]
+    recorded = recorded_pairs(s.rays.pairs_file, shots, stations) if s.rays.pairs_file else None
+    phases = list(s.rays.phases)
+    from ..model.phases import parse_phase
+
+    parsed = {p: parse_phase(p) for p in phases}
+    for p, ph in parsed.items():
+        if ph.target is not None and ph.target not in model.interface_names + model.layer_names:
+            raise InputError(f"phase '{p}' names '{ph.target}', which the model does not have",
+                             file=s.source, key="rays.phases",
+                             fix="interfaces in the model: " + ", ".join(model.interface_names) + ".")
+    max_off = None if s.rays.max_offset_km is None else s.rays.max_offset_km * 1e3
+    gathers = list(iter_shot_gathers(shots, stations, recorded))
+    target = ctx.output("rays.csv")
+    n_rows = 0
+    counts: dict[tuple[str, str], int] = {}
+    keep_points: list[pd.DataFrame] = []
+    keep_mid: list[pd.DataFrame] = []
+    parquet_parts: list[pd.DataFrame] = []
+    spherical_used = set()
+    with atomic_path(target) as tmp:
+        with open(tmp, "w", newline="") as fh:
+            header = True
+            for shot, rec in ctx.progress.iter(gathers, len(gathers), "shots"):
+                if rec.empty:
+                    continue
+                one = shot.to_frame().T.reset_index(drop=True)
+                for c in ("easting", "northing", "lon", "lat", "chainage_m"):
+                    one[c] = one[c].astype(float)
+                geom = pair_geometry(one, rec.reset_index(drop=True), np.zeros(len(rec), np.int64),
+                                     np.arange(len(rec)), line, offset_mismatch=s.rays.offset_mismatch,
+                                     max_offset_m=max_off)
+                keep_mid.append(geom)
+                zs = np.full(len(rec), _source_depth(shot))
+                zr = _receiver_depth(rec.reset_index(drop=True))
+                off = geom["offset_m"].to_numpy()
+                spherical = _earth(ctx, float(np.nanmax(off)) if len(off) else 0.0)
+                spherical_used.add(spherical)
+                for p in phases:
+                    rows = _phase_rows(ctx, model, p, parsed[p], geom, shot, rec.reset_index(drop=True), zs, zr,
+                                       spherical, crs)
+                    for st_, n_ in rows["status"].value_counts().items():
+                        counts[(p, st_)] = counts.get((p, st_), 0) + int(n_)
+                    out = round_for_output(rows[RAY_COLUMNS + EXTRA_COLUMNS])
+                    out.to_csv(fh, header=header, index=False)
+                    header = False
+                    n_rows += len(out)
+                    keep_points.append(rows)
+                    if n_rows > PARQUET_ROWS or parquet_parts:
+                        parquet_parts.append(out)
+    rp = pd.concat(keep_points, ignore_index=True) if keep_points else pd.DataFrame(columns=RAY_COLUMNS)
+    ctx.artefacts["rays"] = rp
+    ctx.artefacts["reflection_points"] = rp[np.isfinite(rp["point_depth_m"].to_numpy(float))].reset_index(drop=True)
+    ctx.artefacts["midpoints"] = pd.concat(keep_mid, ignore_index=True) if keep_mid else None
+    if n_rows > PARQUET_ROWS:
+        try:
+            import pyarrow  # noqa: F401
+
+            with atomic_path(ctx.output("rays.parquet")) as tmp:
+                rp[RAY_COLUMNS + EXTRA_COLUMNS].to_parquet(tmp, index=False)
+        except ImportError:
+            ctx.report.section("Rays").text("rays.csv has more than a million rows; install pyarrow "
+                                            "(`pip install geosect[parquet]`) to get rays.parquet too.")
+    _report(ctx, rp, counts, phases, spherical_used, recorded)
+
+
+def _phase_rows(ctx, model, p, ph, geom, shot, rec, zs, zr, spherical, crs) -> pd.DataFrame:
+    line = ctx.artefacts["line"]
+    off = geom["offset_m"].to_numpy()
+    n = len(off)
+    flags = geom["flags"].to_numpy(dtype=object).copy()
+    status = geom["status"].to_numpy(dtype=object).copy()
+    active = status == "ok"
+    if model.is_1d:
+        sol = _solve_1d(model, p, np.where(active, off, 0.0), zs, zr, spherical)
+        vals = {k: getattr(sol, k) for k in ("time_s", "p_s_per_m", "point_distance_m", "point_depth_m",
+                                              "incidence_deg")}
+        st = sol.status
+        method = "1d_exact_spherical" if spherical else "1d_exact"
+    else:
+        vals, st = _solve_columns(model, p, geom, zs, zr, spherical)
+        method = "1d_column_at_midpoint"
+        flags = np.where(flags == "", "column_at_midpoint", flags + ";column_at_midpoint")
+    status = np.where(active, st, status)
+    for k in vals:
+        vals[k] = np.where(status == "ok", vals[k], np.nan)
+    # reflection point on the map: on the straight source–receiver segment at the computed distance (1D)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        frac = np.clip(vals["point_distance_m"] / np.where(off > 0, off, np.nan), 0.0, 1.0)
+    frac = np.where(off == 0, 0.5, frac)
+    se, sn = float(shot["easting"]), float(shot["northing"])
+    pe = se + frac * (rec["easting"].to_numpy() - se)
+    pn = sn + frac * (rec["northing"].to_numpy() - sn)
+    has_point = np.isfinite(vals["point_depth_m"])
+    pe = np.where(has_point, pe, np.nan)
+    pn = np.where(has_point, pn, np.nan)
+    pch = np.full(n, np.nan)
+    if has_point.any():
+        pch[has_point], _ = line.locate(pe[has_point], pn[has_point])
+    plon, plat = np.full(n, np.nan), np.full(n, np.nan)
+    if has_point.any():
+        plon[has_point], plat[has_point] = to_lonlat(crs, pe[has_point], pn[has_point])
+    fin = np.full(n, np.nan)
+    fxl = np.full(n, np.nan)
+    if ph.kind == "reflection" and has_point.any():
+        fin, fxl = _fresnel(model if model.is_1d else None, p, vals, off, zs, zr, ctx.settings.rays.frequency_hz)
+        fin = np.where(has_point, fin, np.nan)
+        fxl = np.where(has_point, fxl, np.nan)
+    return pd.DataFrame({
+        "shot_id": geom["shot_id"], "station_id": geom["station_id"], "phase": p, "offset_m": off,
+        "line_offset_m": geom["line_offset_m"], "midpoint_chainage_m": geom["midpoint_chainage_m"],
+        "time_s": vals["time_s"], "point_chainage_m": pch, "point_depth_m": vals["point_depth_m"],
+        "point_easting": pe, "point_northing": pn, "point_lon": plon, "point_lat": plat,
+        "fresnel_inline_m": fin, "fresnel_crossline_m": fxl, "status": status, "flags": flags,
+        "azimuth_deg": geom["azimuth_deg"], "midpoint_easting": geom["midpoint_easting"],
+        "midpoint_northing": geom["midpoint_northing"], "midpoint_crossline_m": geom["midpoint_crossline_m"],
+        "incidence_deg": vals["incidence_deg"], "ray_parameter_s_per_km": vals["p_s_per_m"] * 1e3,
+        "method": method,
+    })
+
+
+def _report(ctx, rp, counts, phases, spherical_used, recorded) -> None:
+    sec = ctx.report.section("Rays")
+    n_pairs = rp[["shot_id", "station_id"]].drop_duplicates().shape[0] if len(rp) else 0
+    earth = {True: "spherical", False: "flat"}
+    sec.kv({"pairs": n_pairs, "phases": ", ".join(phases), "rows in rays.csv": len(rp),
+            "Earth": " and ".join(earth[x] for x in sorted(spherical_used)) or "-",
+            "pairs from": "the recorded-pairs table" if recorded is not None else "every usable shot with every "
+                          "usable station"})
+    rows = []
+    for p in phases:
+        tot = sum(v for (q, _), v in counts.items() if q == p)
+        ok = counts.get((p, "ok"), 0)
+        other = ", ".join(f"{md_escape(st)} {v}" for (q, st), v in sorted(counts.items()) if q == p and st != "ok")
+        rows.append((p, tot, ok, other or "-"))
+    sec.table(["phase", "rows", "with a time", "other statuses"], rows, escape=False)
+    if recorded is not None:
+        bad = recorded[recorded["status"] != "ok"]
+        if len(bad):
+            sec.text(f"{len(bad)} recorded pairs name an unknown shot or station: "
+                     + ", ".join(f"{md_escape(a)}/{md_escape(b)} ({c})" for a, b, c in
+                                 bad[["shot_id", "station_id", "status"]].head(20).itertuples(index=False)))
+    fl = rp["flags"].astype(str).str.split(";").explode() if len(rp) else pd.Series(dtype=object)
+    fl = fl[fl != ""]
+    if len(fl):
+        sec.counts("flag", fl.value_counts().to_dict())

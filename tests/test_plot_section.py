@@ -181,6 +181,18 @@ def test_every_station_and_shot_at_its_chainage(synth):
     assert np.all(sta.get_facecolors()[bad, 3] == 0) and np.all(sta.get_facecolors()[~bad, 3] > 0)
 
 
+def test_dense_stations_get_smaller_symbols():
+    # 30 stations 100 m apart in one cluster, 5 far apart (synthetic)
+    ch = np.concatenate([np.arange(30) * 100.0 + 50e3, [5e3, 20e3, 90e3, 120e3, 150e3]])
+    st = pd.DataFrame({"id": [f"D{i}" for i in range(ch.size)], "chainage_m": ch, "elevation_m": 500.0,
+                       "crossline_m": 0.0, "kind": "1C", "status": "ok"})
+    ax = draw_section(SectionData(line_length_m=160e3, stations=st), SectionOptions(size="double-column"))
+    (sc,) = _by_gid(ax.figure, "stations")
+    size = np.sqrt(sc.get_sizes())
+    assert np.all(size[:30] < size[30:].min())
+    assert np.allclose(size[30:], size[30:].max())
+
+
 @pytest.mark.parametrize("ve", [1.0, 2.5])
 def test_stated_exaggeration_equals_axes_aspect(synth, ve):
     ax = _draw(draw_section(synth, SectionOptions(size="double-column", exaggeration=ve)))

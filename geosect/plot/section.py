@@ -532,6 +532,7 @@ class _Ctx:
     ray_phase: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=object))
     ray_size: np.ndarray = field(default_factory=lambda: np.empty(0, dtype=int))
     station_ms: float = 4.5
+    axes_width_mm: float = 150.0
     topo_ve: float = 5.0
 
     def add(self, group: str, handle: Any, label: str) -> None:
@@ -593,6 +594,7 @@ def _setup(data: SectionData, opts: SectionOptions, preset: Preset, cmap: Any, a
     """Extents of the section and the phase colours."""
     ctx = _Ctx(preset=preset, opts=opts, cmap=cmap)
     ctx.station_ms = 4.0 if preset.name == "single-column" else 4.8
+    ctx.axes_width_mm = axes_width_mm
     ctx.topo_x = data.topo_chainage_m / 1000.0
     ctx.topo_z = -data.topo_elevation_m / 1000.0
     order = np.argsort(ctx.topo_x, kind="stable")
@@ -968,6 +970,24 @@ _TRIANGLE = MarkerStyle(MplPath([(-0.55, 0.0), (0.55, 0.0), (0.0, 0.95), (-0.55,
                                 [MplPath.MOVETO, MplPath.LINETO, MplPath.LINETO, MplPath.CLOSEPOLY]))
 
 
+def _spaced_sizes(x_km: np.ndarray, ms: float, ctx: _Ctx) -> np.ndarray:
+    """Marker sizes (points) that shrink where neighbours are closer than a marker width.
+
+    A dense deployment then reads as a row of small symbols instead of a black bar; the
+    smallest size is 40 % of ``ms``.
+    """
+    n = x_km.size
+    if n < 2:
+        return np.full(n, ms)
+    pt_per_km = ctx.axes_width_mm / PT_MM / max(ctx.x1 - ctx.x0, 1e-9)
+    order = np.argsort(x_km, kind="stable")
+    gaps = np.diff(x_km[order]) * pt_per_km
+    nearest = np.minimum(np.append(gaps, np.inf), np.insert(gaps, 0, np.inf))
+    size = np.empty(n)
+    size[order] = np.clip(nearest * 1.05, 0.4 * ms, ms)
+    return size
+
+
 def _crossline_classes(ctx: _Ctx) -> tuple[np.ndarray, list[str], list[str]]:
     edges = np.asarray(ctx.opts.crossline_classes_km, dtype=float)
     n = edges.size + 1
@@ -1012,8 +1032,10 @@ def _draw_survey(ax: Axes, data: SectionData, ctx: _Ctx) -> None:
         rgba_face[~good] = (1.0, 1.0, 1.0, 0.0)
         rgba_edge = np.tile(mpl.colors.to_rgba("#111111"), (len(table), 1))
         rgba_edge[~good] = mpl.colors.to_rgba("#c62828")
-        sc = ax.scatter(x[inside], zt[inside], s=ms**2, marker=marker, facecolors=rgba_face[inside],
-                        edgecolors=rgba_edge[inside], linewidths=0.45, zorder=z, clip_on=False)
+        size = _spaced_sizes(x[inside], ms, ctx)
+        sc = ax.scatter(x[inside], zt[inside], s=size**2, marker=marker, facecolors=rgba_face[inside],
+                        edgecolors=rgba_edge[inside], linewidths=np.where(size < 0.7 * ms, 0.25, 0.45), zorder=z,
+                        clip_on=False)
         sc.set_gid(name)
         sc.set_label(f"_{name}")
         used_classes.update(np.unique(cls[inside & known & good]).tolist())
@@ -1370,7 +1392,8 @@ def _draw_topo_panel(tax: Axes, data: SectionData, ctx: _Ctx, aw_mm: float, th_m
         zt = np.where(np.isfinite(zt), zt, _df_col(table, "elevation_m") / 1e3)
         m = np.isfinite(x) & np.isfinite(zt) & (x >= ctx.x0) & (x <= ctx.x1)
         if np.any(m):
-            tax.scatter(x[m], zt[m], s=ms**2, marker=marker, color="#333333", linewidths=0, zorder=4,
+            tax.scatter(x[m], zt[m], s=_spaced_sizes(x[m], ms, ctx) ** 2, marker=marker, color="#333333",
+                        linewidths=0, zorder=4,
                         gid=f"{name}-panel", clip_on=False)
     tax.set_ylabel("Elev. (km)", fontsize=p.body_pt, labelpad=2)
     tax.tick_params(labelsize=p.small_pt, width=p.line_pt, length=2.5, pad=1.5, labelbottom=False)
@@ -1625,7 +1648,7 @@ def _full_figure(data: SectionData, opts: SectionOptions, preset: Preset, cmap: 
 
     provisional_notes[:] = ctx.notes
     cap_text = _wrap(fig, caption_text(ctx.topo_ve if tax is not None else None), cap_w, P.small_pt, renderer)
-    cap_y = y if P.height_mm is None else max(y, H - bottom_m - cap_h)
+    cap_y = y
     fig.text(ml / W, 1.0 - cap_y / H, cap_text, ha="left", va="top", fontsize=P.small_pt, color="#222222",
              gid="caption", linespacing=1.25)
     return ax

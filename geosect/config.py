@@ -36,6 +36,8 @@ __all__ = [
     "ModelSettings",
     "PicksInput",
     "RaySettings",
+    "CoverageSettings",
+    "PlanInput",
     "SectionSettings",
     "MapSettings",
     "load_settings",
@@ -215,6 +217,36 @@ class RaySettings:
 
 
 @dataclass
+class CoverageSettings:
+    bin_km: float = opt(2.0, "Chainage bin for the reflection-point fold per interface, km.", minimum=0.0,
+                        exclusive_min=True)
+    gap_km: float = opt(5.0, "Stretches of an interface without reflection points longer than this are reported "
+                        "as gaps, km.", minimum=0.0, exclusive_min=True)
+    candidate_spacing_km: float = opt(2.0, "Candidate positions for an added station are tried along the line every "
+                                      "this many km.", minimum=0.0, exclusive_min=True)
+    candidates: int = opt(5, "How many of the best candidate station positions are listed.", minimum=0)
+
+
+@dataclass
+class PlanInput:
+    """A planned survey (stations and shots not yet in the field), computed like the real one."""
+
+    name: str = req("Name of the layout, shown in the report.")
+    file: Path | None = opt(None, "Table of planned points (columns kind = station|shot, x, y, optional id, "
+                            "depth_m); when not given the layout is made along the section line from the spacings.",
+                            is_file=True)
+    coordinates_crs: str | None = opt(None, "CRS of the planned points' coordinates.")
+    columns: dict = opt({}, "Columns of the table: id, x, y, kind, depth.", columns=("id", "x", "y", "kind", "depth"))
+    station_spacing_km: float | None = opt(None, "Station spacing along the section line, km.", minimum=0.0,
+                                           exclusive_min=True)
+    shot_spacing_km: float | None = opt(None, "Shot spacing along the section line, km.", minimum=0.0,
+                                        exclusive_min=True)
+    start_km: float = opt(0.0, "Chainage where the planned layout starts, km.")
+    end_km: float | None = opt(None, "Chainage where it ends, km (default: the end of the line).")
+    shot_depth_m: float = opt(0.0, "Source depth below ground of the planned shots, m.", minimum=0.0)
+
+
+@dataclass
 class SectionSettings:
     swath_km: float = opt(15.0, "Hypocentres and map lines within this distance of the line are projected, km.",
                           minimum=0.0)
@@ -259,6 +291,8 @@ class Settings:
     model: ModelSettings | None = None
     picks: PicksInput | None = None
     rays: RaySettings = field(default_factory=RaySettings)
+    coverage: CoverageSettings = field(default_factory=CoverageSettings)
+    plans: list = field(default_factory=list)  # list[PlanInput]
     section: SectionSettings = field(default_factory=SectionSettings)
     map: MapSettings = field(default_factory=MapSettings)
 
@@ -285,6 +319,8 @@ _SECTION_TYPES: dict[str, Any] = {
     "model": ModelSettings,
     "picks": PicksInput,
     "rays": RaySettings,
+    "coverage": CoverageSettings,
+    "plans": [PlanInput],
     "section": SectionSettings,
     "map": MapSettings,
 }
@@ -419,6 +455,15 @@ def _check_cross(s: Settings, source: Path) -> None:
                 fix=f'add height_reference = "geoid" (above mean sea level) or "ellipsoid" to [{sect}].',
                 file=source, key=f"{sect}.height_reference",
             )
+    for i, pl in enumerate(s.plans):
+        if pl.file is None and (pl.station_spacing_km is None or pl.shot_spacing_km is None):
+            raise ConfigError(f"plan '{pl.name}' has neither a file nor both spacings", file=source,
+                              key=f"plans[{i}]", fix="give file = \"plan.csv\", or station_spacing_km and "
+                              "shot_spacing_km to lay the plan out along the section line.")
+        if pl.file is not None and pl.file.suffix.lower() in (".csv", ".tsv", ".txt") and pl.coordinates_crs is None:
+            raise ConfigError(f"plan '{pl.name}' is a table without a stated CRS", file=source,
+                              key=f"plans[{i}].coordinates_crs", fix='add coordinates_crs = "EPSG:4326" (or the '
+                              "table's CRS).")
     if s.line.method == "file" and s.line.file is None:
         raise ConfigError("line method 'file' needs a line file", fix='add file = "line.geojson" to [line], or set '
                           'method = "fit" or "smooth" to build the line from the stations.', file=source,

@@ -50,7 +50,7 @@ def _points(ctx: Context, name: str) -> pd.DataFrame:
     f = ctx.artefacts.get(f"placed_{name}")
     if f is None:
         return pd.DataFrame()
-    f = f[f["status"] == "ok"].copy()
+    f = f[np.isfinite(f["chainage_m"])].copy()  # rows with a status other than ok are drawn hollow
     elev = f["elevation_m"].where(np.isfinite(f["elevation_m"]), f["dem_elevation_m"])
     out = pd.DataFrame({"id": f["id"], "chainage_m": f["chainage_m"], "elevation_m": elev,
                         "crossline_m": f["crossline_m"], "kind": f.get("kind", ""), "status": f["status"]})

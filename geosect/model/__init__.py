@@ -11,6 +11,7 @@ The public pieces:
 * :func:`sample_model_toml` (the invented sample project's model).
 """
 
+from geosect.model.fresnel import FresnelZone, fresnel_radius, fresnel_semi_axes, fresnel_zone
 from geosect.model.layered import LINE_SIGNATURE_KEYS, Interface, Layer, LayeredModel
 from geosect.model.oned import STATUS_CODES, RaySolution
 from geosect.model.phases import Phase, iaspei_label, parse_phase
@@ -25,4 +26,8 @@ __all__ = [
     "Phase",
     "parse_phase",
     "iaspei_label",
+    "fresnel_radius",
+    "fresnel_zone",
+    "fresnel_semi_axes",
+    "FresnelZone",
 ]

@@ -70,8 +70,10 @@ _XML_MAP = {
 
 # Inside a JS literal: quotes of every kind, the template-substitution dollar,
 # markup characters (so "</script>" or "<!--" can never appear), line separators.
-_JS_EXTRA = {c: f"\\u{c:04x}" for c in map(ord, "\"'`$<>&")}
-_JS_EXTRA.update({0x2028: "\\u2028", 0x2029: "\\u2029"})
+_JS_MAP = {c: f"\\u{c:04x}" for c in map(ord, "\"'`$<>&")}
+_JS_MAP.update({c: f"\\u{c:04x}" for c in list(range(0x20)) + [0x7F, 0x2028, 0x2029]})
+_JS_MAP[ord("\\")] = "\\\\"
+_SURROGATE = re.compile("[\ud800-\udfff]")
 
 # In JSON placed inside <script type="application/json">: '<', '>', '&' cannot appear
 # outside strings in JSON, so replacing them everywhere is exact.
@@ -131,8 +133,9 @@ def js_string(value: Any) -> str:
     >>> js_string("</script>${x}`")
     '"\\\\u003c/script\\\\u003e\\\\u0024{x}\\\\u0060"'
     """
-    body = json.dumps(_text(value), ensure_ascii=False)[1:-1]
-    return '"' + body.translate(_JS_EXTRA) + '"'
+    body = _text(value).translate(_JS_MAP)
+    body = _SURROGATE.sub(lambda m: f"\\u{ord(m.group(0)):04x}", body)
+    return '"' + body + '"'
 
 
 def script_json(obj: Any) -> str:

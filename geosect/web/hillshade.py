@@ -182,7 +182,7 @@ def hillshade_overlay(
     from PIL import Image
     from pyproj import Transformer
     from rasterio.enums import Resampling
-    from rasterio.warp import calculate_default_transform, reproject
+    from rasterio.warp import reproject, transform_bounds
 
     with _open(dem_path) as src:
         if src.crs is None:
@@ -202,7 +202,7 @@ def hillshade_overlay(
         w = max(2, int(math.ceil(src.width / factor)))
         h = max(2, int(math.ceil(src.height / factor)))
         band = src.read(1, out_shape=(h, w), masked=True, resampling=Resampling.average)
-        transform = t * Affine.scale(src.width / w, src.height / h)
+        transform = t @ Affine.scale(src.width / w, src.height / h)
         crs = src.crs
         bounds = src.bounds
     z = np.ma.filled(band.astype(float), np.nan)
@@ -230,7 +230,7 @@ def hillshade_overlay(
         dx, dy = abs(transform.a) * unit, abs(transform.e) * unit
     if transform.e > 0:  # south-up rows: flip so that row 0 is north
         z = z[::-1]
-        transform = transform * Affine.translation(0, h) * Affine.scale(1, -1)
+        transform = transform @ Affine.translation(0, h) @ Affine.scale(1, -1)
         if np.ndim(dx):
             dx = dx[::-1]
 
@@ -246,16 +246,19 @@ def hillshade_overlay(
     rgba[3] = np.where(valid, 255, 0)
     rgba[:3, ~valid] = 0
 
+    # Target grid: the DEM's footprint in Web Mercator, about as many cells as were read.
     dst_crs = "EPSG:3857"
-    left, bottom_, right, top_ = (
-        transform.c,
+    src_box = (
+        min(transform.c, transform.c + w * transform.a),
         transform.f + h * transform.e,
-        transform.c + w * transform.a,
+        max(transform.c, transform.c + w * transform.a),
         transform.f,
     )
-    dst_t, dst_w, dst_h = calculate_default_transform(crs, dst_crs, w, h, left=min(left, right),
-                                                      bottom=min(bottom_, top_), right=max(left, right),
-                                                      top=max(bottom_, top_))
+    L, B, R, T = transform_bounds(crs, dst_crs, *src_box, densify_pts=21)
+    aspect = (R - L) / (T - B)
+    dst_w = max(2, int(round(math.sqrt(w * h * aspect))))
+    dst_h = max(2, int(round(w * h / dst_w)))
+    dst_t = Affine((R - L) / dst_w, 0.0, L, 0.0, -(T - B) / dst_h, T)
     out = np.zeros((4, dst_h, dst_w), dtype=np.uint8)
     reproject(
         source=rgba,

@@ -108,7 +108,7 @@
     overlay('DEM hillshade', L.imageOverlay(D.hillshade.url, D.hillshade.bounds, { opacity: 0.85, interactive: false }), true);
   }
 
-  var tip = L.tooltip({ direction: 'top', offset: [0, -6], opacity: 0.95 });
+  var tip = L.tooltip({ direction: 'top', offset: [0, -6], opacity: 0.95, className: 'gs-tip' });
   function showTip(latlng, content) { tip.setContent(content); map.openTooltip(tip, latlng); }
   function hideTip() { map.closeTooltip(tip); }
 
@@ -228,8 +228,12 @@
     }
     return null;
   }
-  map.on('mousemove', function (e) {
-    var h = pointAt(e.containerPoint);
+  // A DOM listener on the map container sees every move; Leaflet's canvas renderer
+  // throttles the map's own 'mousemove' (and drops the last move) over vector layers.
+  L.DomEvent.on(map.getContainer(), 'mousemove', function (ev) {
+    if (map._animatingZoom || (map.dragging && map.dragging.moving())) return;
+    var over = ev.target && ev.target.closest && ev.target.closest('.leaflet-popup, .leaflet-control');
+    var h = over ? null : pointAt(map.mouseEventToContainerPoint(ev)); // nothing "under" a popup or control
     if (h) {
       if (!hovered || hovered.pl !== h.pl || hovered.i !== h.i) { hovered = h; h.pl.over(h.i); }
       map.getContainer().classList.add('gs-pointer');
@@ -239,7 +243,7 @@
       map.getContainer().classList.remove('gs-pointer');
     }
   });
-  map.on('mouseout', function () { if (hovered) { hovered = null; hideTip(); } });
+  L.DomEvent.on(map.getContainer(), 'mouseleave', function () { if (hovered) { hovered = null; hideTip(); } });
   map.on('click', function (e) {
     var h = pointAt(e.containerPoint);
     if (h && h.pl.click) h.pl.click(h.i);

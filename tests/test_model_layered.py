@@ -114,7 +114,7 @@ def test_negative_velocity_named_with_chainage():
     with pytest.raises(ModelError) as e:
         LayeredModel(itfs, lays)
     msg = str(e.value)
-    assert "layer 'cover'" in msg and "-10.0" in msg and "chainage 12.000 km" in msg
+    assert "layer 'cover'" in msg and "-0.01 km/s" in msg and "chainage 12.000 km" in msg
     assert "positive" in msg
 
 

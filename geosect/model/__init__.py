@@ -13,6 +13,7 @@ The public pieces:
 
 from geosect.model.fresnel import FresnelZone, fresnel_radius, fresnel_semi_axes, fresnel_zone
 from geosect.model.layered import LINE_SIGNATURE_KEYS, Interface, Layer, LayeredModel
+from geosect.model.modelfile import model_from_toml, model_to_toml, read_model, write_model
 from geosect.model.oned import STATUS_CODES, RaySolution
 from geosect.model.phases import Phase, iaspei_label, parse_phase
 
@@ -26,6 +27,10 @@ __all__ = [
     "Phase",
     "parse_phase",
     "iaspei_label",
+    "read_model",
+    "write_model",
+    "model_to_toml",
+    "model_from_toml",
     "fresnel_radius",
     "fresnel_zone",
     "fresnel_semi_axes",

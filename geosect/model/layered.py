@@ -188,11 +188,18 @@ class LayeredModel:
         end_n`` (map coordinates, m) and ``length_m``.  See :meth:`check_line`.
     name : str
         A name for messages.
+    note : str
+        Free text (for example where the model comes from).
 
     Attributes
     ----------
     notes : list of str
         Remarks that are not errors, for example interfaces with no head wave.
+    topography_set : bool
+        Whether :meth:`set_topography` filled the top surface.
+    file_top : Interface or None
+        The top interface as given before :meth:`set_topography` replaced it
+        (what a model file keeps).
 
     Raises
     ------
@@ -203,11 +210,13 @@ class LayeredModel:
 
     def __init__(self, interfaces: Sequence[Interface], layers: Sequence[Layer], *,
                  top: str = "datum", line_signature: Mapping | None = None,
-                 name: str = "model"):
+                 name: str = "model", note: str = ""):
         self.interfaces = list(interfaces)
         self.layers = list(layers)
         self.top = top
         self.name = name
+        self.note = note
+        self.file_top: Interface | None = None
         self.line_signature = None if line_signature is None else dict(line_signature)
         self.topography_set = False
         self.notes: list[str] = []
@@ -465,8 +474,8 @@ class LayeredModel:
             bad = ~(np.isfinite(vals) & (vals > 0))
             if bad.any():
                 j = int(np.flatnonzero(bad)[0])
-                raise _model_error(f"layer '{lay.name}' has {key} {vals[j]!r} m/s at chainage "
-                                   f"{_km(c[j])}; velocities must be positive",
+                raise _model_error(f"layer '{lay.name}' has {key} {vals[j] / 1000.0:g} km/s at "
+                                   f"chainage {_km(c[j])}; velocities must be positive",
                                    "give a positive velocity (km/s in model files)",
                                    ("layer", i, key))
         if has_vs:
@@ -710,7 +719,8 @@ class LayeredModel:
             lays.append(Layer(lay.name, vt, vb, None,
                               vp_gradient_per_s=g if last else 0.0, **kw))
         out = LayeredModel(itfs, lays, top=self.top, line_signature=self.line_signature,
-                           name=f"{self.name} at chainage {_km(float(chainage_m))}")
+                           name=f"{self.name} at chainage {_km(float(chainage_m))}",
+                           note=self.note)
         out.topography_set = self.topography_set
         return out
 
@@ -825,6 +835,8 @@ class LayeredModel:
                              f"{_km(hit[1])})",
                              fix=f"check the DEM heights along the line, or deepen '{nxt}' in "
                                  "the model")
+        if self.file_top is None:
+            self.file_top = old
         self.topography_set = True
         self._make_notes()
 

@@ -16,6 +16,7 @@ from geosect.model.layered import LINE_SIGNATURE_KEYS, Interface, Layer, Layered
 from geosect.model.modelfile import model_from_toml, model_to_toml, read_model, write_model
 from geosect.model.oned import STATUS_CODES, RaySolution
 from geosect.model.phases import Phase, iaspei_label, parse_phase
+from geosect.model.sample import sample_model, sample_model_toml
 
 __all__ = [
     "LayeredModel",
@@ -35,4 +36,6 @@ __all__ = [
     "fresnel_zone",
     "fresnel_semi_axes",
     "FresnelZone",
+    "sample_model",
+    "sample_model_toml",
 ]

@@ -1,0 +1,1002 @@
+"""Two-point ray tracing in 2D layered models: reflections and turning rays.
+
+The tracer works in the (chainage, depth) plane of a section line.  Per shot it
+shoots a fan of rays, all advanced together by a compiled kernel
+(:mod:`geosect.model._rt_kernels`), brackets every receiver between rays that
+emerge on either side of it, and refines the take-off angle (regula falsi,
+Illinois variant) until the ray emerges within ``tol_m`` of the receiver.
+
+Inside a layer the velocity is linear in depth, :math:`v = a(x) + b(x) z`:
+
+* constant layers: straight rays, exact intersections with the interface
+  polylines;
+* a laterally constant gradient: circular arcs, exact intersections and times;
+* lateral change: the kinematic ray equations in arc length :math:`s`,
+
+  .. math::
+
+      \\frac{dx}{ds} = \\sin\\theta, \\quad \\frac{dz}{ds} = \\cos\\theta, \\quad
+      \\frac{d\\theta}{ds} = \\frac{1}{v}\\left(\\frac{\\partial v}{\\partial z}
+      \\sin\\theta - \\frac{\\partial v}{\\partial x}\\cos\\theta\\right), \\quad
+      \\frac{dt}{ds} = \\frac{1}{v},
+
+  integrated by fourth-order Runge-Kutta with steps limited by the ray's
+  curvature (Červený 2001, *Seismic Ray Theory*, ch. 3), and a Newton search on
+  the last step so that it ends on the interface.
+
+At every interface crossing Snell's law holds in the interface's local frame;
+a ray is lost at post-critical incidence, and a phase keeps only the rays that
+follow its path (down through the layers to the target, back up to the
+surface).  See ``docs/methods-raytracing.md``.
+
+Conventions: SI units; chainage ``x`` along the line, depth ``z`` positive
+down (negative above the datum); take-off angles from the downward vertical,
+positive towards increasing chainage.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Sequence
+
+import numpy as np
+
+from geosect.errors import InputError, ModelError
+from geosect.model import _rt_kernels as K
+from geosect.model.flattening import (EARTH_RADIUS_M, FLATTENING_TOLERANCE, flatten_depth,
+                                      flatten_velocity, n_sublayers, unflatten_depth)
+from geosect.model.phases import Phase, parse_phase
+
+__all__ = [
+    "LayerLaw",
+    "TraceModel",
+    "TraceResult",
+    "RayTracer2D",
+    "trace_shot",
+    "RESULT_COLUMNS",
+]
+
+#: Columns of :meth:`TraceResult.to_frame`.
+RESULT_COLUMNS: tuple[str, ...] = (
+    "receiver_chainage_m", "receiver_depth_m", "time_s", "point_chainage_m", "point_depth_m",
+    "incidence_deg", "takeoff_deg", "emergence_deg", "ray_parameter_s_per_m", "n_branches",
+    "misfit_m", "status", "flags",
+)
+
+_EPS_COINCIDE = 0.01  # m: interfaces closer than this at a crossing count as one (pinch-out)
+
+
+# ---------------------------------------------------------------------------
+# model description
+# ---------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class LayerLaw:
+    """Velocity law of one layer: :math:`v(x, z) = a(x) + b(x)\\,z`.
+
+    ``a`` (m/s, the law extrapolated to depth 0) and ``b`` (dv/dz, 1/s) are
+    linear in chainage between the nodes and constant beyond the end nodes.
+
+    Parameters
+    ----------
+    chainage_m : array_like
+        Node chainages, metres, increasing (one node: laterally constant).
+    a_ms : array_like
+        Velocity extrapolated to the datum (depth 0) at each node, m/s.
+    b_per_s : array_like
+        Vertical gradient at each node, 1/s.
+    """
+
+    chainage_m: np.ndarray
+    a_ms: np.ndarray
+    b_per_s: np.ndarray
+
+    def __post_init__(self) -> None:
+        c = np.atleast_1d(np.asarray(self.chainage_m, float))
+        a = np.broadcast_to(np.asarray(self.a_ms, float), c.shape).copy()
+        b = np.broadcast_to(np.asarray(self.b_per_s, float), c.shape).copy()
+        object.__setattr__(self, "chainage_m", c)
+        object.__setattr__(self, "a_ms", a)
+        object.__setattr__(self, "b_per_s", b)
+
+    @classmethod
+    def linear(cls, v_ms, gradient_per_s=0.0, reference_depth_m=0.0, chainage_m=None) -> "LayerLaw":
+        """The law ``v = v_ms + gradient_per_s (z - reference_depth_m)`` (m/s, 1/s, m)."""
+        c = np.zeros(1) if chainage_m is None else chainage_m
+        v = np.asarray(v_ms, float)
+        g = np.asarray(gradient_per_s, float)
+        return cls(c, v - g * np.asarray(reference_depth_m, float), g)
+
+    def velocity(self, chainage_m, depth_m) -> np.ndarray:
+        """Velocity (m/s) at chainages and depths (m), vectorised."""
+        x = np.asarray(chainage_m, float)
+        return (np.interp(x, self.chainage_m, self.a_ms)
+                + np.interp(x, self.chainage_m, self.b_per_s) * np.asarray(depth_m, float))
+
+    @property
+    def is_lateral(self) -> bool:
+        """True when a or b changes along chainage."""
+        return bool(np.ptp(self.a_ms) > 0 or np.ptp(self.b_per_s) > 0)
+
+
+@dataclass
+class TraceModel:
+    """The tracer's own description of a 2D layered model.
+
+    Layer ``j`` lies between interface ``j`` (top) and ``j + 1`` (bottom); the
+    last layer is a half-space.  Interface 0 is the model's top surface
+    (topography, or flat at the datum).  :meth:`from_model` builds one from a
+    :class:`~geosect.model.LayeredModel`.
+
+    Parameters
+    ----------
+    interface_names, layer_names : sequence of str
+        Names, top to bottom (as many as layers).
+    interfaces : sequence of (chainage_m, depth_m) pairs
+        Node arrays of every interface, metres; constant beyond the end nodes.
+    vp, vs : sequence of LayerLaw
+        P and S velocity laws per layer (``vs`` may be None: no S phases).
+    """
+
+    interface_names: list[str]
+    layer_names: list[str]
+    interfaces: list[tuple[np.ndarray, np.ndarray]]
+    vp: list[LayerLaw]
+    vs: list[LayerLaw] | None = None
+
+    def __post_init__(self) -> None:
+        n = len(self.layer_names)
+        if not (len(self.interface_names) == len(self.interfaces) == len(self.vp) == n):
+            raise ModelError(f"the trace model has {n} layers, {len(self.interface_names)} "
+                             f"interface names, {len(self.interfaces)} interfaces and "
+                             f"{len(self.vp)} P laws", fix="give one of each per layer")
+        ifs = []
+        for name, (c, z) in zip(self.interface_names, self.interfaces):
+            c = np.atleast_1d(np.asarray(c, float))
+            z = np.atleast_1d(np.asarray(z, float))
+            if c.shape != z.shape or c.size == 0 or not (np.isfinite(c).all() and np.isfinite(z).all()):
+                raise ModelError(f"interface '{name}' needs as many finite chainages as depths",
+                                 fix="give matching node arrays")
+            if c.size > 1 and (np.diff(c) <= 0).any():
+                raise ModelError(f"interface '{name}': node chainages must increase",
+                                 fix="sort the nodes and remove repeated chainages")
+            ifs.append((c, z))
+        self.interfaces = ifs
+
+    @classmethod
+    def flat(cls, tops_m: Sequence[float], vp_ms: Sequence[float],
+             gradients: Sequence[float] | None = None, names: Sequence[str] | None = None,
+             layer_names: Sequence[str] | None = None, vpvs: float = 1.73) -> "TraceModel":
+        """Flat layers: top depths (m), P velocities at the tops (m/s), gradients (1/s)."""
+        tops = np.asarray(tops_m, float)
+        vp = np.asarray(vp_ms, float)
+        n = tops.size
+        g = np.zeros(n) if gradients is None else np.asarray(gradients, float)
+        names = list(names) if names is not None else ["surface"] + [f"interface{i}" for i in range(1, n)]
+        lnames = list(layer_names) if layer_names is not None else [f"layer{i + 1}" for i in range(n)]
+        laws = [LayerLaw.linear(vp[i], g[i], tops[i]) for i in range(n)]
+        laws_s = [LayerLaw.linear(vp[i] / vpvs, g[i] / vpvs, tops[i]) for i in range(n)]
+        return cls(names, lnames, [(np.zeros(1), np.array([t])) for t in tops], laws, laws_s)
+
+    @classmethod
+    def from_model(cls, model: Any, *, spacing_m: float = 250.0) -> "TraceModel":
+        """Adapter from :class:`geosect.model.LayeredModel`.
+
+        The model's law in layer ``i`` is :math:`v = v_{top}(x) + g(x)(z - z_{top}(x))`
+        with :math:`g = (v_{bottom} - v_{top}) / (z_{bottom} - z_{top})` (the
+        half-space has its own gradient); velocities above the model top follow
+        the top layer's law.  Where the law varies along chainage it is sampled
+        at the velocity and interface nodes and at most ``spacing_m`` apart, and
+        written as :math:`a(x) + b(x) z` linear between the samples; laterally
+        constant layers are kept exact.
+        """
+        itfs = [(np.asarray(i.chainage_m, float), np.asarray(i.depth_m, float))
+                for i in model.interfaces]
+        n = len(model.layers)
+        vp, vs = [], []
+        for i, lay in enumerate(model.layers):
+            last = i == n - 1
+            nodes = [np.asarray(lay.chainage_m, float), itfs[i][0]]
+            if not last:
+                nodes.append(itfs[i + 1][0])
+            x = np.unique(np.concatenate(nodes))
+            if x.size > 1:
+                steps = np.maximum(np.ceil(np.diff(x) / spacing_m).astype(int), 1)
+                x = np.unique(np.concatenate([np.linspace(x[k], x[k + 1], steps[k] + 1)
+                                              for k in range(x.size - 1)]))
+            zt = np.interp(x, *itfs[i])
+            zb = None if last else np.interp(x, *itfs[i + 1])
+            for wave, out in (("P", vp), ("S", vs)):
+                vt, vb, g = _layer_values(lay, x, wave, last)
+                if not last:
+                    h = zb - zt
+                    with np.errstate(invalid="ignore", divide="ignore"):
+                        g = np.where(h > 0, (vb - vt) / np.where(h > 0, h, 1.0), 0.0)
+                a = vt - g * zt
+                if np.ptp(a) <= 1e-9 * np.abs(a).max() and np.ptp(g) <= 1e-15:
+                    out.append(LayerLaw(np.zeros(1), a[:1], g[:1]))
+                else:
+                    out.append(LayerLaw(x, a, g))
+        return cls(list(model.interface_names), list(model.layer_names), itfs, vp, vs)
+
+    def velocity(self, chainage_m, depth_m, wave: str = "P") -> np.ndarray:
+        """Velocity (m/s) at points (m), the layer chosen as the model does it.
+
+        A point on an interface takes the layer below; points above the top
+        surface take the top layer's law.
+        """
+        laws = self._laws(wave)
+        x, z = np.broadcast_arrays(np.asarray(chainage_m, float), np.asarray(depth_m, float))
+        k = np.zeros(x.shape, int)
+        for c, d in self.interfaces[1:]:
+            k += z >= np.interp(x, c, d)
+        v = np.empty(x.shape)
+        for j, law in enumerate(laws):
+            s = k == j
+            v[s] = law.velocity(x[s], z[s])
+        return v
+
+    def _laws(self, wave: str) -> list[LayerLaw]:
+        w = str(wave).upper()
+        if w == "P":
+            return self.vp
+        if w == "S":
+            if self.vs is None:
+                raise ModelError("the model has no S velocities", fix="give vs or vp/vs per layer")
+            return self.vs
+        raise InputError(f"wave type '{wave}' is not P or S", key="wave", fix="use 'P' or 'S'")
+
+    def interface_index(self, name: str) -> int:
+        """Index of an interface by name (InputError with the names it has)."""
+        if name in self.interface_names:
+            return self.interface_names.index(name)
+        raise InputError(f"the model has no interface '{name}'", key="phase",
+                         fix="name one of: " + ", ".join(repr(n) for n in self.interface_names))
+
+    def layer_index(self, name: str) -> int:
+        """Index of a layer by name (InputError with the names it has)."""
+        if name in self.layer_names:
+            return self.layer_names.index(name)
+        raise InputError(f"the model has no layer '{name}'", key="phase",
+                         fix="name one of: " + ", ".join(repr(n) for n in self.layer_names))
+
+
+def _layer_values(lay: Any, x: np.ndarray, wave: str, last: bool):
+    """(v_top, v_bottom or None, gradient or None) of a LayeredModel layer at chainages x."""
+    c = np.asarray(lay.chainage_m, float)
+
+    def at(values):
+        return np.interp(x, c, np.broadcast_to(np.asarray(values, float), c.shape))
+
+    vt = at(lay.vp_top_ms)
+    vb = None if last else at(lay.vp_bottom_ms)
+    g = at(lay.vp_gradient_per_s) if last else None
+    if wave == "S":
+        if getattr(lay, "vpvs", None) is not None:
+            r = float(lay.vpvs)
+            vt = vt / r
+            vb = None if vb is None else vb / r
+            g = None if g is None else g / r
+        else:
+            vt = at(lay.vs_top_ms)
+            vb = None if last else at(lay.vs_bottom_ms)
+            g = at(lay.vs_gradient_per_s if lay.vs_gradient_per_s is not None else 0.0) if last else None
+    return vt, vb, g
+
+
+def as_trace_model(model: Any) -> TraceModel:
+    """A TraceModel as is; a LayeredModel through :meth:`TraceModel.from_model`."""
+    if isinstance(model, TraceModel):
+        return model
+    if hasattr(model, "interfaces") and hasattr(model, "layers"):
+        return TraceModel.from_model(model)
+    raise InputError(f"cannot trace rays through a {type(model).__name__}", key="model",
+                     fix="pass a geosect.model.LayeredModel or a TraceModel")
+
+
+# ---------------------------------------------------------------------------
+# packing: polylines for the kernel
+# ---------------------------------------------------------------------------
+
+
+def _max_envelope(xa, za, xb, zb):
+    """Polyline of max(a(x), b(x)) (both constant beyond their ends), with crossing nodes."""
+    x = np.union1d(xa, xb)
+    d = np.interp(x, xa, za) - np.interp(x, xb, zb)
+    s = np.flatnonzero(d[:-1] * d[1:] < 0)
+    if s.size:
+        xc = x[s] - d[s] * (x[s + 1] - x[s]) / (d[s + 1] - d[s])
+        x = np.union1d(x, xc)
+    return x, np.maximum(np.interp(x, xa, za), np.interp(x, xb, zb))
+
+
+def _smooth(c, z, tol_m: float, max_nodes: int = 20000):
+    """PCHIP spline through the nodes, resampled so the chords stay within tol_m; node slopes."""
+    if c.size < 3:
+        slope = np.full(c.size, 0.0 if c.size < 2 else (z[1] - z[0]) / (c[1] - c[0]))
+        return c, z, slope
+    from scipy.interpolate import PchipInterpolator
+
+    f = PchipInterpolator(c, z)
+    d2 = f.derivative(2)
+    h = np.diff(c)
+    curv = np.maximum(np.abs(d2(c[:-1] + 1e-6 * h)), np.abs(d2(c[1:] - 1e-6 * h)))
+    with np.errstate(divide="ignore"):
+        step = np.where(curv > 0, np.sqrt(8.0 * tol_m / np.where(curv > 0, curv, 1.0)), np.inf)
+    n = np.clip(np.ceil(h / step), 1, None).astype(int)
+    if n.sum() > max_nodes:
+        n = np.maximum((n * max_nodes / n.sum()).astype(int), 1)
+    x = np.unique(np.concatenate([np.linspace(c[k], c[k + 1], n[k] + 1) for k in range(c.size - 1)]))
+    return x, f(x), f.derivative(1)(x)
+
+
+@dataclass
+class _Packed:
+    arrays: tuple
+    group: np.ndarray          # model layer of each trace layer
+    iface: np.ndarray          # trace interface index of each model interface
+    real: np.ndarray
+    surface: tuple[np.ndarray, np.ndarray]   # recording surface (x, z), traced coordinates
+    flatten: bool
+    radius_m: float
+    vmin: float
+
+    def depth(self, i: int, x) -> np.ndarray:
+        ifx, ifz, ifd, ifo = self.arrays[:4]
+        return K.interface_depth(ifx, ifz, ifo, i, np.atleast_1d(np.asarray(x, float)))
+
+    def layer_at(self, x: float, z: float) -> int:
+        n_if = self.arrays[3].size - 1
+        j = 0
+        for i in range(1, n_if):
+            if z >= self.depth(i, x)[0]:
+                j = i
+        return j
+
+    def velocity(self, j: int, x, z) -> np.ndarray:
+        lvx, lva, lvb, lvo = self.arrays[6:10]
+        x = np.atleast_1d(np.asarray(x, float))
+        z = np.broadcast_to(np.asarray(z, float), x.shape).copy()
+        return K.layer_velocity(lvx, lva, lvb, lvo, j, x, z)
+
+
+def _pack(tm: TraceModel, wave: str, surface: tuple[np.ndarray, np.ndarray], *, smooth: bool,
+          smooth_tol_m: float, flatten: bool, radius_m: float, flatten_bottom_m: float) -> _Packed:
+    laws = tm._laws(wave)
+    sx, sz = surface
+    n = len(laws)
+    # interfaces in true depth: surface on top, internal ones smoothed and kept below it
+    polys = [(sx, sz, np.gradient(sz, sx) if sx.size > 1 else np.zeros(1), False)]
+    for c, z in tm.interfaces[1:]:
+        if smooth:
+            c2, z2, d2 = _smooth(c, z, smooth_tol_m)
+        else:
+            c2, z2, d2 = c, z, np.zeros(c.size)
+        x, zc = _max_envelope(c2, z2, sx, sz)
+        d = np.interp(x, c2, d2)
+        if smooth:
+            below = np.interp(x, c2, z2) >= np.interp(x, sx, sz)
+            seg = np.gradient(zc, x) if x.size > 1 else np.zeros(1)
+            d = np.where(below, d, seg)
+        polys.append((x, zc, d, smooth))
+    layer_laws = list(laws)
+    real = [True] * n
+    group = list(range(n))
+    iface = list(range(n))
+    if flatten:
+        polys, layer_laws, real, group, iface = _flatten(polys, layer_laws, radius_m, flatten_bottom_m)
+    # kinds
+    kinds = []
+    for law in layer_laws:
+        if law.is_lateral:
+            kinds.append(2)
+        elif law.b_per_s[0] == 0.0:
+            kinds.append(0)
+        else:
+            kinds.append(1)
+    ifo = np.cumsum([0] + [p[0].size for p in polys]).astype(np.int64)
+    ifx = np.concatenate([p[0] for p in polys]).astype(float)
+    ifz = np.concatenate([p[1] for p in polys]).astype(float)
+    ifd = np.concatenate([p[2] for p in polys]).astype(float)
+    ifsm = np.array([1 if p[3] else 0 for p in polys], np.int8)
+    ifreal = np.array([1 if r else 0 for r in real], np.int8)
+    single = [law if law.is_lateral else LayerLaw(np.zeros(1), law.a_ms[:1], law.b_per_s[:1])
+              for law in layer_laws]
+    lvo = np.cumsum([0] + [law.chainage_m.size for law in single]).astype(np.int64)
+    lvx = np.concatenate([law.chainage_m for law in single])
+    lva = np.concatenate([law.a_ms for law in single])
+    lvb = np.concatenate([law.b_per_s for law in single])
+    arrays = (ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo,
+              np.array(kinds, np.int8), np.array(group, np.int64))
+    # slowest velocity anywhere near the section, for the time budget
+    vmin = min(float(np.min(law.a_ms + law.b_per_s * np.interp(law.chainage_m, *polys[0][:2])))
+               for law in single)
+    s_polys = polys[0]
+    return _Packed(arrays, np.array(group), np.array(iface), np.array(real),
+                   (s_polys[0], s_polys[1]), flatten, radius_m, max(vmin, 1.0))
+
+
+def _flatten(polys, laws, radius_m: float, bottom_m: float):
+    """Flattened polylines and laws, with virtual sub-layer interfaces (see flattening.py)."""
+    R = radius_m
+    out_polys, out_laws, real, group, iface = [], [], [], [], []
+    n = len(laws)
+    for j in range(n):
+        tx, tz, td, tsm = polys[j]
+        if j + 1 < n:
+            bx, bz = polys[j + 1][0], polys[j + 1][1]
+        else:
+            bx, bz = tx, tz + bottom_m
+        law = laws[j]
+        x = np.union1d(np.union1d(tx, bx), law.chainage_m if law.is_lateral else tx)
+        flat_layer = tx.size == 1 and bx.size == 1 and np.ptp(tz) == 0 and np.ptp(bz) == 0
+        if flat_layer and not law.is_lateral:
+            x = np.zeros(1)
+        zt = np.interp(x, tx, tz)
+        zb = np.interp(x, bx, bz)
+        ft = flatten_depth(zt, R)
+        fb = flatten_depth(zb, R)
+        a = np.interp(x, law.chainage_m, law.a_ms)
+        b = np.interp(x, law.chainage_m, law.b_per_s)
+        vft = flatten_velocity(a + b * zt, zt, R)
+        vfb = flatten_velocity(a + b * zb, zb, R)
+        nsub = n_sublayers(float(np.max(fb - ft)), float(min(vft.min(), vfb.min())),
+                           float(np.abs(b).max()), float(max(vft.max(), vfb.max())), R,
+                           FLATTENING_TOLERANCE)
+        # the real top interface, flattened at its own nodes
+        iface.append(len(out_polys))
+        fz = flatten_depth(tz, R)
+        fd = td * R / (R - tz)  # dz_f/dx = dz/dx * R / (R - z)
+        out_polys.append((tx, fz, fd, tsm))
+        real.append(True)
+        for k in range(nsub):
+            f0 = ft + (fb - ft) * k / nsub
+            f1 = ft + (fb - ft) * (k + 1) / nsub
+            z0 = unflatten_depth(f0, R)
+            z1 = unflatten_depth(f1, R)
+            v0 = flatten_velocity(a + b * z0, z0, R)
+            v1 = flatten_velocity(a + b * z1, z1, R)
+            h = f1 - f0
+            with np.errstate(invalid="ignore", divide="ignore"):
+                bf = np.where(h > 0, (v1 - v0) / np.where(h > 0, h, 1.0), 0.0)
+            af = v0 - bf * f0
+            if x.size == 1 or (np.ptp(af) <= 1e-9 * np.abs(af).max() and np.ptp(bf) <= 1e-15):
+                out_laws.append(LayerLaw(np.zeros(1), af[:1], bf[:1]))
+            else:
+                out_laws.append(LayerLaw(x, af, bf))
+            group.append(j)
+            if k > 0:
+                out_polys.append((x, f0, np.gradient(f0, x) if x.size > 1 else np.zeros(1), False))
+                real.append(False)
+    return out_polys, out_laws, real, group, iface
+
+
+# ---------------------------------------------------------------------------
+# results
+# ---------------------------------------------------------------------------
+
+
+@dataclass
+class TraceResult:
+    """Two-point rays of one phase from one source to many receivers.
+
+    All arrays have one entry per receiver.  Times, points and angles are NaN
+    where ``status`` is not ``'ok'``.
+
+    Attributes
+    ----------
+    phase : str
+        The phase traced, for example ``'P:reflection:moho'``.
+    source_chainage_m, source_depth_m : float
+        The source, metres.
+    receiver_chainage_m, receiver_depth_m : numpy.ndarray
+        The receivers, metres.
+    time_s : numpy.ndarray
+        Travel time of the earliest ray, seconds.
+    point_chainage_m, point_depth_m : numpy.ndarray
+        Reflection point (reflections) or deepest point of the ray in the
+        turning layer (turning rays), metres.
+    incidence_deg : numpy.ndarray
+        Angle between the ray and the reflector's normal at the reflection
+        point, degrees (NaN for turning rays).
+    takeoff_deg : numpy.ndarray
+        Take-off angle from the downward vertical, degrees, positive towards
+        increasing chainage.
+    emergence_deg : numpy.ndarray
+        Angle of the arriving ray from the upward vertical, degrees, positive
+        when it travels towards increasing chainage.
+    ray_parameter_s_per_m : numpy.ndarray
+        Horizontal slowness at the source, :math:`\\sin(\\text{take-off})/v`,
+        s/m (signed like the take-off angle).  With Earth flattening it is
+        :math:`p_s / R`, the spherical ray parameter over the datum radius.
+    n_branches : numpy.ndarray
+        How many distinct rays of the phase reach the receiver (0 when none;
+        more than 1 in a triplication).
+    misfit_m : numpy.ndarray
+        Distance along the surface between the final ray's emergence and the
+        receiver, metres (the time is corrected for it to first order).
+    status : numpy.ndarray of str
+        ``'ok'``, ``'no_ray'`` (no ray of this phase reaches the receiver),
+        ``'bad_position'`` (receiver chainage or depth not finite) or
+        ``'bad_source'``.
+    flags : numpy.ndarray of str
+        ';'-joined warnings: ``multiple_branches``, ``receiver_off_surface``,
+        ``source_below_target``.
+    paths : list or None
+        With ``return_paths``: per receiver an (n, 2) array of (chainage,
+        depth) along the earliest ray, or None.
+    n_traced : int
+        Rays traced in all.
+    """
+
+    phase: str
+    source_chainage_m: float
+    source_depth_m: float
+    receiver_chainage_m: np.ndarray
+    receiver_depth_m: np.ndarray
+    time_s: np.ndarray
+    point_chainage_m: np.ndarray
+    point_depth_m: np.ndarray
+    incidence_deg: np.ndarray
+    takeoff_deg: np.ndarray
+    emergence_deg: np.ndarray
+    ray_parameter_s_per_m: np.ndarray
+    n_branches: np.ndarray
+    misfit_m: np.ndarray
+    status: np.ndarray
+    flags: np.ndarray
+    paths: list | None = None
+    n_traced: int = 0
+    branches: dict = field(default_factory=dict, repr=False)
+
+    def to_frame(self):
+        """The per-receiver arrays as a pandas DataFrame (columns :data:`RESULT_COLUMNS`)."""
+        import pandas as pd
+
+        return pd.DataFrame({c: getattr(self, c) for c in RESULT_COLUMNS})
+
+
+# ---------------------------------------------------------------------------
+# the tracer
+# ---------------------------------------------------------------------------
+
+
+class RayTracer2D:
+    """Two-point ray tracer for one model, reused over many shots.
+
+    Parameters
+    ----------
+    model : LayeredModel or TraceModel
+        The velocity model.
+    surface_chainage_m, surface_depth_m : array_like, optional
+        Points the recording surface must pass through, metres (typically all
+        stations of the line).  Rays emerge on the surface made of the model's
+        top shifted, between these points, to pass through them.  By default
+        every call uses its own receivers.
+    smooth : bool
+        Replace the internal interfaces by a shape-preserving PCHIP spline
+        through their nodes (resampled within ``smooth_tol_m``; normals from
+        the spline's slope), so that kinks at nodes make no false caustics or
+        coverage gaps.
+    smooth_tol_m : float
+        Largest distance between the spline and its resampled chords, metres.
+    flatten : bool
+        Earth flattening (:mod:`geosect.model.flattening`): chainage is arc
+        length along the datum sphere, times are spherical times.
+    radius_m : float
+        Datum radius for flattening, metres.
+    flatten_bottom_m : float
+        Thickness of the half-space sub-layered for flattening, metres.
+    step_m : float
+        Longest Runge-Kutta step in layers with lateral change, metres.
+    max_turn : float
+        Largest ray turn per Runge-Kutta step, radians (steps are at most
+        ``max_turn * v / |grad v|`` long).
+    parallel : bool
+        Share the rays of a call between threads (numba).
+    """
+
+    def __init__(self, model: Any, *, surface_chainage_m=None, surface_depth_m=None,
+                 smooth: bool = False, smooth_tol_m: float = 0.05, flatten: bool = False,
+                 radius_m: float = EARTH_RADIUS_M, flatten_bottom_m: float = 200e3,
+                 step_m: float = 500.0, max_turn: float = 0.02, parallel: bool = True):
+        self.model = as_trace_model(model)
+        self.smooth = bool(smooth)
+        self.smooth_tol_m = float(smooth_tol_m)
+        self.flatten = bool(flatten)
+        self.radius_m = float(radius_m)
+        self.flatten_bottom_m = float(flatten_bottom_m)
+        self.step_m = float(step_m)
+        self.max_turn = float(max_turn)
+        self.parallel = bool(parallel)
+        self._fixed = None
+        if surface_chainage_m is not None:
+            self._fixed = self._surface(np.asarray(surface_chainage_m, float),
+                                        np.asarray(surface_depth_m, float))
+        self._cache: dict = {}
+
+    # .................................................................. set-up
+
+    def _surface(self, rx: np.ndarray, rz: np.ndarray):
+        """Recording surface: the model top shifted to pass through the given points."""
+        tx, tz = self.model.interfaces[0]
+        good = np.isfinite(rx) & np.isfinite(rz)
+        if not good.any():
+            return tx, tz
+        rx, rz = rx[good], rz[good]
+        ux, inv = np.unique(rx, return_inverse=True)
+        res = np.bincount(inv, rz - np.interp(rx, tx, tz)) / np.bincount(inv)
+        x = np.union1d(tx, ux)
+        return x, np.interp(x, tx, tz) + np.interp(x, ux, res)
+
+    def _packed(self, wave: str, rx: np.ndarray, rz: np.ndarray) -> _Packed:
+        surf = self._fixed if self._fixed is not None else self._surface(rx, rz)
+        key = (wave, surf[0].tobytes(), surf[1].tobytes())
+        pk = self._cache.get(key)
+        if pk is None:
+            if len(self._cache) > 8:
+                self._cache.clear()
+            pk = _pack(self.model, wave, surf, smooth=self.smooth, smooth_tol_m=self.smooth_tol_m,
+                       flatten=self.flatten, radius_m=self.radius_m,
+                       flatten_bottom_m=self.flatten_bottom_m)
+            if self.flatten:
+                x, z = pk.surface
+                pk.surface = (x, z)
+            self._cache[key] = pk
+        return pk
+
+    def _program(self, ph: Phase) -> tuple[int, int, int]:
+        """(ptype, model target index, kernel target) of a phase."""
+        tm = self.model
+        if ph.kind == "reflection":
+            k = tm.interface_index(ph.target)
+            if k == 0:
+                raise InputError(f"phase '{ph}': '{ph.target}' is the top surface, not a reflector",
+                                 key="phase", fix="name an interface below the surface")
+            return 0, k, k
+        if ph.kind == "turning":
+            k = tm.layer_index(ph.target)
+            return 1, k, k
+        raise InputError(f"phase '{ph}': the 2D ray tracer traces 'reflection:<interface>' and "
+                         f"'turning:<layer>' phases, not '{ph.kind}'", key="phase",
+                         fix="use the 1D solver (LayeredModel.traveltime on a column) or the "
+                             "eikonal solver for direct, head and first arrivals")
+
+    # .................................................................. tracing
+
+    def _shoot(self, pk: _Packed, prog, src_layer, xs, zs, theta, prm, paths=0):
+        self.n_traced += int(np.size(theta))
+        return K.trace_rays(pk.arrays, prog[0], prog[1], src_layer, xs, zs, theta, prm,
+                            paths=paths, parallel=self.parallel)
+
+    def trace(self, source_chainage_m: float, source_depth_m: float, receiver_chainage_m,
+              receiver_depth_m, phase: str | Phase, *, n_rays: int = 181, tol_m: float = 1.0,
+              max_gap_m: float | None = None, return_paths: bool = False,
+              max_path_points: int = 4000) -> TraceResult:
+        """Two-point rays of one phase from one source to many receivers.
+
+        Parameters
+        ----------
+        source_chainage_m, source_depth_m : float
+            Source position, metres (depth positive down: a borehole shot 30 m
+            below a surface at 850 m elevation has depth -820 m).
+        receiver_chainage_m, receiver_depth_m : array_like
+            Receiver positions, metres; receivers lie on the recording surface.
+        phase : str or Phase
+            ``'[P|S:]reflection:<interface>'`` or ``'[P|S:]turning:<layer>'``.
+        n_rays : int
+            Rays in the first, even fan of take-off angles (then refined
+            where rays spread, turn back in emergence, or are lost).
+        tol_m : float
+            Largest emergence misfit accepted, metres.
+        max_gap_m : float, optional
+            Refine the fan until neighbouring rays that bracket receivers
+            emerge at most this far apart (default: 5 median receiver
+            spacings, at least 50 m).
+        return_paths : bool
+            Also return the ray path to each receiver.
+        max_path_points : int
+            Most points kept per path.
+
+        Returns
+        -------
+        TraceResult
+        """
+        self.n_traced = 0
+        ph = parse_phase(phase)
+        prog_type, target_model, _ = self._program(ph)
+        xs = float(source_chainage_m)
+        zs = float(source_depth_m)
+        rx = np.atleast_1d(np.asarray(receiver_chainage_m, float)).ravel()
+        rz = np.broadcast_to(np.asarray(receiver_depth_m, float), rx.shape).astype(float)
+        n = rx.size
+        res = _empty_result(str(ph), xs, zs, rx, rz, return_paths)
+        good = np.isfinite(rx) & np.isfinite(rz)
+        res.status[~good] = "bad_position"
+        if not (np.isfinite(xs) and np.isfinite(zs)):
+            res.status[:] = "bad_source"
+            return res
+        if not good.any():
+            return res
+        pk = self._packed(ph.wave, rx, rz)
+        R = self.radius_m
+        zs_t = float(flatten_depth(zs, R)) if self.flatten else zs
+        rz_t = flatten_depth(rz, R) if self.flatten else rz
+        src_layer = pk.layer_at(xs, zs_t)
+        if prog_type == 0:
+            kt = int(pk.iface[target_model])
+            if pk.group[src_layer] >= target_model:
+                res.flags[good] = "source_below_target"
+                res.status[good] = "no_ray"
+                return res
+        else:
+            kt = target_model
+            if pk.group[src_layer] > target_model:
+                res.flags[good] = "source_below_target"
+                res.status[good] = "no_ray"
+                return res
+        prog = (prog_type, kt)
+        gx = rx[good]
+        span_lo = min(gx.min(), xs)
+        span_hi = max(gx.max(), xs)
+        pad = max(0.1 * (span_hi - span_lo), 2000.0)
+        n_if = pk.arrays[3].size - 1
+        tmax = 20.0 * (span_hi - span_lo + 2 * pad + 2 * float(np.max(np.abs(pk.arrays[1])))) / pk.vmin
+        prm = np.array([span_lo - pad, span_hi + pad, self.step_m, self.max_turn, _EPS_COINCIDE,
+                        tmax, 8 * n_if + 16, 200000, 1e-6])
+        rs = np.sort(gx)
+        if max_gap_m is None:
+            sp = np.diff(np.unique(rs))
+            max_gap_m = max(5.0 * float(np.median(sp)) if sp.size else 500.0, 50.0)
+        th, out = self._fan(pk, prog, src_layer, xs, zs_t, prm, rs, n_rays, tol_m, max_gap_m)
+        conv = self._solve(pk, prog, src_layer, xs, zs_t, prm, th, out, rx, good, tol_m)
+        self._assemble(res, pk, conv, rx, rz_t, xs, zs_t, src_layer, prm, prog, return_paths,
+                       max_path_points)
+        res.n_traced = self.n_traced
+        return res
+
+    def _fan(self, pk, prog, src_layer, xs, zs, prm, rs, n_rays, tol_m, max_gap_m,
+             max_levels: int = 26, dth_min: float = 1e-7):
+        """Adaptive fan of take-off angles: (angles, kernel rows), sorted by angle."""
+        thmax = np.radians(89.9)
+        th = np.linspace(-thmax, thmax, max(int(n_rays), 3))
+        out = self._shoot(pk, prog, src_layer, xs, zs, th, prm)[0]
+        for _ in range(max_levels):
+            ok = out[:, 0] == 0
+            X = out[:, 1]
+            both = ok[:-1] & ok[1:]
+            lo = np.minimum(X[:-1], X[1:])
+            hi = np.maximum(X[:-1], X[1:])
+            with np.errstate(invalid="ignore"):
+                cnt = np.searchsorted(rs, hi, "right") - np.searchsorted(rs, lo, "left")
+                cnt = np.where(both, cnt, 0)
+                flag = both & (cnt > 0) & (hi - lo > max_gap_m)
+                d = np.diff(X)
+                ext = both[:-1] & both[1:] & (d[:-1] * d[1:] < 0)
+                xe = X[1:-1]
+                near = (np.searchsorted(rs, xe + max_gap_m, "right")
+                        - np.searchsorted(rs, xe - max_gap_m, "left")) > 0
+                ext &= near
+            e2 = np.zeros(flag.size, bool)
+            e2[:-1] |= ext
+            e2[1:] |= ext
+            flag |= e2 & (hi - lo > tol_m)
+            flag |= ok[:-1] != ok[1:]
+            flag &= np.diff(th) > dth_min
+            if not flag.any():
+                break
+            new = 0.5 * (th[:-1][flag] + th[1:][flag])
+            o2 = self._shoot(pk, prog, src_layer, xs, zs, new, prm)[0]
+            th = np.concatenate([th, new])
+            out = np.concatenate([out, o2])
+            order = np.argsort(th, kind="stable")
+            th = th[order]
+            out = out[order]
+        return th, out
+
+    def _solve(self, pk, prog, src_layer, xs, zs, prm, th, out, rx, good, tol_m,
+               max_iter: int = 40):
+        """Bracket every receiver between neighbouring rays and refine each bracket."""
+        ok = out[:, 0] == 0
+        X = out[:, 1]
+        ia = np.flatnonzero(ok[:-1] & ok[1:])
+        gi = np.flatnonzero(good)
+        order = gi[np.argsort(rx[gi], kind="stable")]
+        rs = rx[order]
+        lo = np.minimum(X[ia], X[ia + 1])
+        hi = np.maximum(X[ia], X[ia + 1])
+        start = np.searchsorted(rs, lo - tol_m, "left")
+        stop = np.searchsorted(rs, hi + tol_m, "right")
+        cnt = np.maximum(stop - start, 0)
+        total = int(cnt.sum())
+        empty = {"recv": np.zeros(0, int), "theta": np.zeros(0), "row": np.zeros((0, 10))}
+        if total == 0:
+            return empty
+        first = np.repeat(start, cnt) + (np.arange(total) - np.repeat(np.cumsum(cnt) - cnt, cnt))
+        recv = order[first]
+        pint = np.repeat(ia, cnt)
+        ta = th[pint].copy()
+        tb = th[pint + 1].copy()
+        xr = rx[recv]
+        fa = X[pint] - xr
+        fb = X[pint + 1] - xr
+        # keep brackets with a sign change (or an end point within tolerance)
+        keep = (fa * fb <= 0) | (np.abs(fa) <= tol_m) | (np.abs(fb) <= tol_m)
+        recv, ta, tb, fa, fb, xr, pint = (a[keep] for a in (recv, ta, tb, fa, fb, xr, pint))
+        m = recv.size
+        c_theta = np.full(m, np.nan)
+        c_row = np.full((m, 10), np.nan)
+        hit_a = np.abs(fa) <= tol_m
+        hit_b = (np.abs(fb) <= tol_m) & ~hit_a
+        c_theta[hit_a] = ta[hit_a]
+        c_row[hit_a] = out[pint[hit_a]]
+        c_theta[hit_b] = tb[hit_b]
+        c_row[hit_b] = out[pint[hit_b] + 1]
+        active = ~(hit_a | hit_b)
+        losses = np.zeros(m, int)
+        bisect = np.zeros(m, bool)
+        for _ in range(max_iter):
+            act = np.flatnonzero(active)
+            if act.size == 0:
+                break
+            a_, b_, fa_, fb_ = ta[act], tb[act], fa[act], fb[act]
+            with np.errstate(invalid="ignore", divide="ignore"):
+                tn = b_ - fb_ * (b_ - a_) / (fb_ - fa_)
+            lo_t = np.minimum(a_, b_)
+            hi_t = np.maximum(a_, b_)
+            bad = ~np.isfinite(tn) | (tn <= lo_t) | (tn >= hi_t) | bisect[act]
+            tn = np.where(bad, 0.5 * (a_ + b_), tn)
+            row = self._shoot(pk, prog, src_layer, xs, zs, tn, prm)[0]
+            okn = row[:, 0] == 0
+            fn = row[:, 1] - xr[act]
+            # lost rays: bisect next time, give up after three
+            lost = act[~okn]
+            losses[lost] += 1
+            bisect[act] = ~okn
+            active[lost[losses[lost] >= 3]] = False
+            good_n = okn
+            done = good_n & (np.abs(fn) <= tol_m)
+            c_theta[act[done]] = tn[done]
+            c_row[act[done]] = row[done]
+            active[act[done]] = False
+            upd = good_n & ~done
+            u = act[upd]
+            fnu = fn[upd]
+            tnu = tn[upd]
+            swap = fnu * fb[u] < 0
+            ta[u] = np.where(swap, tb[u], ta[u])
+            fa[u] = np.where(swap, fb[u], 0.5 * fa[u])
+            tb[u] = tnu
+            fb[u] = fnu
+            tiny = np.abs(tb - ta) < 1e-13
+            active &= ~tiny
+        got = np.isfinite(c_theta)
+        return {"recv": recv[got], "theta": c_theta[got], "row": c_row[got]}
+
+    def _assemble(self, res: TraceResult, pk: _Packed, conv: dict, rx, rz_t, xs, zs, src_layer,
+                  prm, prog, return_paths: bool, max_path_points: int) -> None:
+        recv, theta, row = conv["recv"], conv["theta"], conv["row"]
+        flags = [[f] if f else [] for f in res.flags]
+        good = res.status != "bad_position"
+        res.status[good] = "no_ray"
+        if recv.size:
+            # distinct rays per receiver
+            o = np.lexsort((theta, recv))
+            recv, theta, row = recv[o], theta[o], row[o]
+            dup = np.zeros(recv.size, bool)
+            dup[1:] = (recv[1:] == recv[:-1]) & (np.abs(np.diff(theta)) < 1e-9)
+            recv, theta, row = recv[~dup], theta[~dup], row[~dup]
+            # time corrected for the emergence misfit along the surface
+            sx, sz = pk.surface
+            xe, ze, te, dxe, dze, ve = (row[:, k] for k in range(1, 7))
+            if sx.size > 1:
+                kseg = np.clip(np.searchsorted(sx, xe, "right") - 1, 0, sx.size - 2)
+                mslope = (sz[kseg + 1] - sz[kseg]) / (sx[kseg + 1] - sx[kseg])
+                mslope = np.where((xe < sx[0]) | (xe >= sx[-1]), 0.0, mslope)
+            else:
+                mslope = np.zeros(xe.size)
+            dxr = rx[recv] - xe
+            t = te + (dxe + mslope * dze) / ve * dxr
+            misfit = np.abs(dxr) * np.sqrt(1.0 + mslope ** 2)
+            # receivers off the recording surface: vertical correction
+            zsurf = np.interp(rx[recv], sx, sz)
+            off = rz_t[recv] - zsurf
+            t = t + off * dze / ve
+            counts = np.bincount(recv, minlength=rx.size)
+            o = np.lexsort((t, recv))
+            firsts = o[np.r_[True, recv[o][1:] != recv[o][:-1]]]
+            r_ = recv[firsts]
+            res.time_s[r_] = t[firsts]
+            res.n_branches[:] = counts
+            res.misfit_m[r_] = misfit[firsts]
+            px, pz = row[firsts, 7], row[firsts, 8]
+            if pk.flatten:
+                pz = unflatten_depth(pz, pk.radius_m)
+            res.point_chainage_m[r_] = px
+            res.point_depth_m[r_] = pz
+            res.incidence_deg[r_] = row[firsts, 9]
+            th = theta[firsts]
+            res.takeoff_deg[r_] = np.degrees(th)
+            vs = pk.velocity(src_layer, np.full(th.size, xs), np.full(th.size, zs))
+            res.ray_parameter_s_per_m[r_] = np.sin(th) / vs
+            res.emergence_deg[r_] = np.degrees(np.arctan2(dxe[firsts], -dze[firsts]))
+            res.status[r_] = "ok"
+            for k, r in enumerate(r_):
+                if counts[r] > 1:
+                    flags[r].append("multiple_branches")
+                if abs(off[firsts[k]]) > 0.01:
+                    flags[r].append("receiver_off_surface")
+            res.branches = {"receiver": recv, "theta_rad": theta, "time_s": t}
+            if return_paths:
+                o2, ppx, ppz, ppn = self._shoot(pk, prog, src_layer, xs, zs, th, prm,
+                                                paths=max_path_points)
+                paths: list = [None] * rx.size
+                for k, r in enumerate(r_):
+                    zz = ppz[k, :ppn[k]]
+                    if pk.flatten:
+                        zz = unflatten_depth(zz, pk.radius_m)
+                    paths[r] = np.column_stack([ppx[k, :ppn[k]], zz])
+                res.paths = paths
+        res.flags[:] = [";".join(f) for f in flags]
+
+
+def _empty_result(phase: str, xs: float, zs: float, rx: np.ndarray, rz: np.ndarray,
+                  paths: bool) -> TraceResult:
+    n = rx.size
+    nan = np.full(n, np.nan)
+    return TraceResult(
+        phase=phase, source_chainage_m=xs, source_depth_m=zs, receiver_chainage_m=rx.copy(),
+        receiver_depth_m=np.asarray(rz, float).copy(), time_s=nan.copy(),
+        point_chainage_m=nan.copy(), point_depth_m=nan.copy(), incidence_deg=nan.copy(),
+        takeoff_deg=nan.copy(), emergence_deg=nan.copy(), ray_parameter_s_per_m=nan.copy(),
+        n_branches=np.zeros(n, int), misfit_m=nan.copy(),
+        status=np.full(n, "no_ray", dtype=object), flags=np.full(n, "", dtype=object),
+        paths=[None] * n if paths else None)
+
+
+def trace_shot(model: Any, source_chainage_m: float, source_depth_m: float, receiver_chainage_m,
+               receiver_depth_m, phase: str | Phase, *, n_rays: int = 181, tol_m: float = 1.0,
+               smooth: bool = False, flatten: bool = False, return_paths: bool = False,
+               **options) -> TraceResult:
+    """Two-point rays of one phase from one shot to its receivers.
+
+    A convenience around :class:`RayTracer2D` (build one tracer and call
+    :meth:`RayTracer2D.trace` when tracing many shots through one model).
+
+    Parameters
+    ----------
+    model : LayeredModel or TraceModel
+        The velocity model.
+    source_chainage_m, source_depth_m : float
+        Source position, metres (depth positive down).
+    receiver_chainage_m, receiver_depth_m : array_like
+        Receivers, metres; they lie on the recording surface (the model top
+        shifted to pass through them).
+    phase : str
+        ``'[P|S:]reflection:<interface>'`` or ``'[P|S:]turning:<layer>'``.
+    n_rays, tol_m, return_paths
+        See :meth:`RayTracer2D.trace`.
+    smooth, flatten
+        See :class:`RayTracer2D`.
+    **options
+        Further keywords of :class:`RayTracer2D` (``step_m``, ``max_turn``,
+        ``smooth_tol_m``, ``radius_m``, ``parallel``) and of
+        :meth:`RayTracer2D.trace` (``max_gap_m``, ``max_path_points``).
+
+    Returns
+    -------
+    TraceResult
+
+    Examples
+    --------
+    >>> from geosect.model.raytrace2d import TraceModel, trace_shot
+    >>> m = TraceModel.flat([0.0, 2000.0], [2000.0, 3000.0], names=["top", "base"])
+    >>> r = trace_shot(m, 0.0, 0.0, [0.0, 1500.0], [0.0, 0.0], "reflection:base")
+    >>> [round(float(t), 4) for t in r.time_s]   # 2 h / v and sqrt(x^2 + 4 h^2) / v
+    [2.0, 2.136]
+    """
+    trace_kw = {k: options.pop(k) for k in ("max_gap_m", "max_path_points") if k in options}
+    tracer = RayTracer2D(model, smooth=smooth, flatten=flatten, **options)
+    return tracer.trace(source_chainage_m, source_depth_m, receiver_chainage_m, receiver_depth_m,
+                        phase, n_rays=n_rays, tol_m=tol_m, return_paths=return_paths, **trace_kw)

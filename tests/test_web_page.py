@@ -152,10 +152,11 @@ def test_thinning_is_stated(tmp_path):
     p = _payload(doc)
     assert p["midpoints"]["total"] == len(data.midpoints) and len(p["midpoints"]["lon"]["q"]) <= 1000
     assert any(n.startswith(f"Midpoints: 1000 of {len(data.midpoints)} shown") for n in p["notes"])
-    assert any("Reflection points, reflection:moho: 200 of" in n for n in p["notes"])
+    # 200 in total, shared equally by the two phases
+    assert any("Reflection points, reflection:moho: 100 of" in n for n in p["notes"])
     assert len(p["ticks"]["ch"]) <= 401 and any("Chainage ticks every" in n for n in p["notes"])
     counts = np.bincount(p["refl"]["pi"])
-    assert counts.max() <= 200
+    assert counts.tolist() == [100, 100]
 
 
 def test_bad_geology_colour_is_grey_and_noted(hostile):

@@ -40,7 +40,7 @@ __all__ = ["MapData", "SectionPanel", "Hillshade", "write_map", "build_page"]
 
 #: At most this many midpoints go into the page (evenly thinned beyond).
 MAX_MIDPOINTS = 5000
-#: At most this many reflection points per phase go into the page.
+#: At most this many reflection points go into the page, shared equally between phases.
 MAX_REFLECTION_POINTS = 5000
 #: The line table is thinned to this many samples for the page.
 MAX_LINE_SAMPLES = 20000
@@ -382,12 +382,13 @@ def _reflections(df: pd.DataFrame, at_most: int) -> tuple[dict, pd.DataFrame, li
     )
     phase = _str(df, "phase")
     codes, phases = pd.factorize(phase)
-    # thin each phase separately, keeping the original order
+    # thin each phase separately (equal shares of ``at_most``), keeping the original order
     keep = np.zeros(len(df), dtype=bool)
     notes = []
+    share = max(1, math.ceil(at_most / max(len(phases), 1)))
     for k, ph in enumerate(phases.tolist()):  # loop over phases (a few), not rows
         rows = np.flatnonzero(codes == k)
-        sel = rows[_thin(len(rows), at_most)]
+        sel = rows[_thin(len(rows), share)]
         keep[sel] = True
         if len(sel) < len(rows):
             notes.append(f"Reflection points, {ph}: {len(sel)} of {len(rows)} shown (evenly thinned).")

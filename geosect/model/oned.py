@@ -322,14 +322,8 @@ def _table_guess(xfun, ref_args, lo: float, hi: float, x: np.ndarray, n: int = 1
     if good.sum() < 2:
         return np.full(x.shape, lo)
     Xg, grid, dg = Xg[good], grid[good], dg[good]
-    j = np.clip(np.searchsorted(Xg, x) - 1, 0, Xg.size - 2)
-    x0, x1 = Xg[j], Xg[j + 1]
-    hX = x1 - x0
-    t = np.clip((x - x0) / hX, 0.0, 1.0)
-    t2, t3 = t * t, t * t * t
-    s = ((2 * t3 - 3 * t2 + 1) * grid[j] + (t3 - 2 * t2 + t) * hX / dg[j]
-         + (-2 * t3 + 3 * t2) * grid[j + 1] + (t3 - t2) * hX / dg[j + 1])
-    return np.clip(s, lo, hi)
+    return _k.hermite_inverse(np.ascontiguousarray(x, dtype=float), Xg, grid, dg, float(lo),
+                              float(hi))
 
 
 # --------------------------------------------------------------------------- solution
@@ -416,15 +410,24 @@ def _reflection(st: _Stack, m: int, x, zs, zr, w: _Work, active, want_path: bool
     col = st.col
     zm = float(col.top_m[m])
     below = (zs > zm) | (zr > zm)
-    w.code[active & below] = _BELOW_IF
     both_on = (zs == zm) & (zr == zm)
+    w.code[active & below] = _BELOW_IF
     w.code[active & ~below & both_on] = _NO_RAY
-    act = np.flatnonzero(active & ~below & ~both_on)
+    use = active & ~below & ~both_on
+    if use.all():
+        act = np.arange(x.size)
+        sel = slice(None)          # every row: plain slices instead of fancy indexing
+    else:
+        act = np.flatnonzero(use)
+        sel = act
     if act.size == 0:
         return
-    xs, a_s, a_r = x[act], zs[act], zr[act]
-    vmax = np.maximum(st.vmax(a_s, zm), st.vmax(a_r, zm))
-    pmax = 1.0 / vmax
+    xs, a_s, a_r = x[sel], zs[sel], zr[sel]
+    if a_s.min() == a_s.max() and a_r.min() == a_r.max():   # one source and receiver depth
+        vmax1 = max(st.vmax(a_s[0], zm).item(), st.vmax(a_r[0], zm).item())
+        pmax = np.full(act.size, 1.0 / vmax1)
+    else:
+        pmax = 1.0 / np.maximum(st.vmax(a_s, zm), st.vmax(a_r, zm))
 
     def xfun(p, s_, r_):
         X1, d1, _, _, _ = st.leg(p, s_, zm)
@@ -437,14 +440,16 @@ def _reflection(st: _Stack, m: int, x, zs, zr, w: _Work, active, want_path: bool
     p, T12, X1, kst = _k.solve_two_legs(xs, a_s, a_r, np.full(xs.size, zm), pmax, s0,
                                         *st.arrays())
     ok = kst == 0
-    w.code[act[kst == 1]] = _NO_RAY
-    w.code[act[kst == 2]] = _NOCONV
-    w.t[act] = np.where(ok, T12, np.nan)
-    w.p[act] = p
-    w.pt_x[act] = X1
-    w.pt_z[act] = zm
-    v_above = st.v_point(zm, "above")
-    w.inc[act] = np.degrees(np.arcsin(np.clip(p * v_above, 0.0, 1.0)))
+    if not ok.all():
+        w.code[act[kst == 1]] = _NO_RAY
+        w.code[act[kst == 2]] = _NOCONV
+        T12 = np.where(ok, T12, np.nan)
+    w.t[sel] = T12
+    w.p[sel] = p
+    w.pt_x[sel] = X1
+    w.pt_z[sel] = zm
+    v_above = float(st.v_point(zm, "above"))
+    w.inc[sel] = np.degrees(np.arcsin(np.minimum(p * v_above, 1.0)))
     if want_path:
         _path_two_legs(st, w, act, p, xs, a_s, a_r, np.full(act.size, zm), np.full(act.size, zm),
                        turn=False, ok=ok)
@@ -783,25 +788,34 @@ def _path_direct_general(st, w, act, p, xs, zs, zr, zh, zl, zli, in2):
 
 
 def _prepare(col: Column, offset_m, source_depth_m, receiver_depth_m):
-    x, zs, zr = np.broadcast_arrays(np.asarray(offset_m, dtype=float),
-                                    np.asarray(source_depth_m, dtype=float),
-                                    np.asarray(receiver_depth_m, dtype=float))
-    shape = x.shape
-    x = np.abs(x.ravel())
-    zs = zs.ravel().copy()
-    zr = zr.ravel().copy()
-    code = np.zeros(x.size, dtype=np.int8)
-    bad = ~(np.isfinite(x) & np.isfinite(zs) & np.isfinite(zr))
+    """Flat arrays of offsets and depths, the status codes of unusable rows, and the
+    shallowest depth the stack must reach."""
+    x0 = np.asarray(offset_m, dtype=float)
+    zs0 = np.asarray(source_depth_m, dtype=float)
+    zr0 = np.asarray(receiver_depth_m, dtype=float)
+    shape = np.broadcast_shapes(x0.shape, zs0.shape, zr0.shape)
+    n = int(np.prod(shape))
+    x = np.abs(np.broadcast_to(x0, shape)).ravel()
+    zs = np.array(np.broadcast_to(zs0, shape), dtype=float).ravel()
+    zr = np.array(np.broadcast_to(zr0, shape), dtype=float).ravel()
+    code = np.zeros(n, dtype=np.int8)
+    top = float(col.top_m[0])
+    bad = ~np.isfinite(x)
+    for z in (zs0, zr0):  # check the given depths, before broadcasting
+        if not np.isfinite(z).all():
+            bad |= ~np.isfinite(np.broadcast_to(z, shape).ravel())
     code[bad] = _BAD
-    top = col.top_m[0]
-    v_s = col.v_top_ms[0] + col.gradient_per_s[0] * (zs - top)
-    v_r = col.v_top_ms[0] + col.gradient_per_s[0] * (zr - top)
-    outside = ~bad & (((zs < top) & ~(v_s > 0)) | ((zr < top) & ~(v_r > 0)))
-    code[outside] = _OUTSIDE
-    usable = code == _OK
-    x = np.where(usable, x, 0.0)
-    zs = np.where(usable, zs, top)
-    zr = np.where(usable, zr, top)
+    if min(np.min(zs0, initial=top), np.min(zr0, initial=top)) < top:
+        g, v0 = col.gradient_per_s[0], col.v_top_ms[0]
+        with np.errstate(invalid="ignore"):
+            outside = ~bad & (((zs < top) & ~(v0 + g * (zs - top) > 0))
+                              | ((zr < top) & ~(v0 + g * (zr - top) > 0)))
+        code[outside] = _OUTSIDE
+    if code.any():
+        usable = code == _OK
+        x = np.where(usable, x, 0.0)
+        zs = np.where(usable, zs, top)
+        zr = np.where(usable, zr, top)
     z_min = float(min(top, zs.min(initial=top), zr.min(initial=top)))
     return shape, x, zs, zr, code, z_min
 

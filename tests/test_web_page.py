@@ -204,3 +204,41 @@ def test_input_errors_say_where_and_how(change, match):
     with pytest.raises(InputError, match=match) as e:
         build_page(data)
     assert "Fix:" in str(e.value)
+
+
+from hypothesis import given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+_BASE = synthetic_map_data(3, 1)
+
+
+def _small(ids, unit, title) -> MapData:
+    return MapData(title=title, line=_BASE.line, stations=_BASE.stations.assign(id=ids),
+                   geology=_BASE.geology.assign(unit=unit), section=_BASE.section)
+
+
+def _tags(html: str) -> list[str]:
+    doc = _Doc()
+    doc.feed(html)
+    return [t for t, _ in doc.tags if t != "desc"]  # the SVG <desc> is left out for an empty title
+
+
+_REF_TAGS = _tags(build_page(_small(["a", "b", "c"], "u", "t"), content_security_policy=False))
+
+
+@settings(max_examples=20, deadline=None)
+@given(ids=st.lists(st.text(max_size=12), min_size=3, max_size=3), unit=st.text(max_size=20),
+       title=st.text(max_size=20))
+def test_any_text_round_trips_and_adds_no_markup(ids, unit, title):
+    # Invariant: whatever the strings, the tokenizer sees the same elements and the data
+    # block gives the strings back unchanged (reference: html.parser and json).
+    html = build_page(_small(ids, unit, title), content_security_policy=False)
+    doc = _Doc()
+    doc.feed(html)
+    assert [t for t, _ in doc.tags if t != "desc"] == _REF_TAGS
+    p = _payload(doc)
+    assert p["stations"]["id"] == ids and p["title"] == title
+    assert p["geology"]["legend"]["unit"][0] == unit
+    dom = [p["stations"]["dom"]["x"].get(str(i), "st-" + s) for i, s in enumerate(ids)]
+    svg_ids = [a["id"] for t, a in doc.tags if t == "path" and a.get("id", "").startswith("st-")]
+    assert svg_ids == dom and len(set(dom)) == 3

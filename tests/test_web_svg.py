@@ -132,8 +132,9 @@ def test_nice_ticks_property(lo, span):
     hi = lo + span
     t = nice_ticks(lo, hi)
     assert t.size >= 2
-    assert t[0] >= lo - 1e-9 * max(1, abs(lo)) and t[-1] <= hi + 1e-9 * max(1, abs(hi))
     step = np.diff(t)
+    # ticks lie in the range, up to a rounding allowance of 1e-9 step at each end
+    assert t[0] >= lo - 1e-9 * step[0] - 1e-12 and t[-1] <= hi + 1e-9 * step[0] + 1e-12
     assert np.allclose(step, step[0], rtol=1e-6)
     mant = step[0] / 10 ** math.floor(math.log10(step[0]))
     assert min(abs(mant - m) for m in (1.0, 2.0, 5.0, 10.0)) < 1e-6

@@ -18,7 +18,7 @@ from .hillshade import Hillshade
 from .page import MapData
 from .svg import SectionPanel
 
-__all__ = ["synthetic_map_data", "synthetic_dem", "HOSTILE_STRINGS", "LINE_VERTICES_UTM32N"]
+__all__ = ["synthetic_map_data", "synthetic_dem", "position", "HOSTILE_STRINGS", "LINE_VERTICES_UTM32N"]
 
 #: Vertices of the invented crooked line (easting, northing), metres, EPSG:32632.
 LINE_VERTICES_UTM32N = np.array(

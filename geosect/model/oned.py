@@ -903,7 +903,8 @@ def solve_column(col: Column, offset_m, kind: str, index: int | None = None, *,
                 w = wk
                 arrival[np.isfinite(wk.t)] = code
                 continue
-            better = np.isfinite(wk.t) & ~(wk.t >= w.t)
+            # a later candidate wins only if clearly earlier (ties keep the simpler phase)
+            better = np.isfinite(wk.t) & ~(wk.t >= w.t - 1e-9)
             if better.any():
                 for attr in ("t", "p", "pt_x", "pt_z", "inc", "code"):
                     getattr(w, attr)[better] = getattr(wk, attr)[better]

@@ -86,8 +86,9 @@ def unflatten_depth(zf_m: np.ndarray | float, radius_m: float = EARTH_RADIUS_M) 
 
 def flattened_velocity(v_ms: np.ndarray | float, z_m: np.ndarray | float,
                        radius_m: float = EARTH_RADIUS_M) -> np.ndarray:
-    """Earth-flattening velocity :math:`v_f = v R/(R-z)`, in m/s."""
-    return np.asarray(v_ms, dtype=float) * radius_m / (radius_m - np.asarray(z_m, dtype=float))
+    """Earth-flattening velocity :math:`v_f = v R/(R-z)`, in m/s (inf at the centre)."""
+    with np.errstate(divide="ignore"):
+        return np.asarray(v_ms, dtype=float) * radius_m / (radius_m - np.asarray(z_m, dtype=float))
 
 
 def sublayer_depths(z_top_m: float, z_bot_m: float, v_top_ms: float, gradient_per_s: float,

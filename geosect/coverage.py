@@ -180,20 +180,27 @@ def _column_critical(col, interface: str, wave: str, zs: np.ndarray, zr: np.ndar
 
     The critical distance is the sum of two legs at the critical ray parameter, one from the source depth and one
     from the receiver depth down to the interface.  Each leg, L(z), is half the critical distance of a source and a
-    receiver at the same depth z; it is computed at a few depths and interpolated (exact for a constant-velocity
-    top layer, where L is linear in z).
+    receiver at the same depth z; it is computed at three depths and, unless it is straight in z (as in a
+    constant-velocity top layer), at ``depth_samples`` depths, and interpolated.
     """
     z = np.concatenate([zs, zr])
     z = z[np.isfinite(z)]
     if z.size == 0:
         return np.full(zs.size, np.nan)
     zlo, zhi = float(z.min()), float(z.max())
-    grid = np.array([zlo]) if zhi - zlo < 1e-6 else np.linspace(zlo, zhi, depth_samples)
-    half = np.array([0.5 * col.critical_distance(interface, wave=wave, source_depth_m=float(g),
-                                                 receiver_depth_m=float(g), spherical=spherical)
-                     for g in grid])  # a loop over a few depth samples, not over pairs
-    if grid.size == 1:
-        return np.full(zs.size, 2.0 * half[0])
+
+    def legs(grid):  # a loop over a few depth samples, not over pairs
+        return np.array([0.5 * col.critical_distance(interface, wave=wave, source_depth_m=float(g),
+                                                     receiver_depth_m=float(g), spherical=spherical) for g in grid])
+
+    if zhi - zlo < 1e-6:
+        return np.full(zs.size, 2.0 * legs([zlo])[0])
+    grid = np.array([zlo, 0.5 * (zlo + zhi), zhi])
+    half = legs(grid)
+    straight = np.all(np.isfinite(half)) and abs(half[1] - 0.5 * (half[0] + half[2])) <= 1e-9 * max(1.0, half[1])
+    if not straight:  # a velocity gradient in the top layer: sample more densely
+        grid = np.linspace(zlo, zhi, max(3, depth_samples))
+        half = legs(grid)
     return np.interp(zs, grid, half) + np.interp(zr, grid, half)
 
 

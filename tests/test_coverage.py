@@ -199,6 +199,18 @@ def test_critical_distance_legs_from_elevated_sources_and_receivers():
     assert wide_angle([50e3], np.nan).count == 0
 
 
+def test_critical_distance_interpolated_over_depth_in_a_gradient_layer():
+    # With a gradient in the top layer each leg is no longer straight in depth; the interpolated legs must agree
+    # with the model's critical distance computed pair by pair.
+    m = LayeredModel.flat([0, 20e3, 35e3], [5000, 6300, 8000], names=["surface", "conrad", "moho"],
+                          gradients=[0.03, 0.01, 0.0])
+    rng = np.random.default_rng(3)
+    zs, zr = -rng.uniform(0, 3000, 12), -rng.uniform(0, 3000, 12)
+    for name in ("conrad", "moho"):
+        one_by_one = [m.critical_distance(name, source_depth_m=a, receiver_depth_m=b) for a, b in zip(zs, zr)]
+        np.testing.assert_allclose(critical_distances(m, name, zs, zr), one_by_one, rtol=1e-5)
+
+
 def test_critical_distance_of_a_2d_model_uses_the_column_under_the_midpoint():
     # A basement deepening from 8 to 12 km over 100 km; the pair's column is the one at the centre of its 2 km
     # midpoint group, where x_c = 2 h tan(asin(v1/v2)) (Kearey, Brooks & Hill, 3rd ed., ch. 5).

@@ -21,10 +21,12 @@ Two kinds of spherical segment are used:
 
   .. math::
 
-      L = S_a - S_b, \\quad \\Delta = \\arccos(d/r_a)\\ \\text{to}\\ \\arccos(d/r_b),
+      L = S_a - S_b, \\quad \\Delta = \\arccos(d/r_a) - \\arccos(d/r_b),
       \\quad T = L / v,
 
-  evaluated in cancellation-free forms (see :func:`chord_segment`).
+  evaluated in cancellation-free forms: :math:`L = (r_a^2 - r_b^2)/(S_a + S_b)` and
+  :math:`\\Delta = \\operatorname{atan2}(d L, d^2 + S_a S_b)` (the compiled kernel
+  :func:`geosect.model._kernels.piece`, kind 1).
 * **shells with a linear velocity gradient in depth**: the Earth-flattening
   transformation :math:`z_f = -R\\ln((R-z)/R)`, :math:`v_f = v R/(R-z)` maps them
   exactly onto a flat medium, but :math:`v_f(z_f)` is no longer linear: for
@@ -53,7 +55,6 @@ __all__ = [
     "unflatten_depth",
     "flattened_velocity",
     "sublayer_depths",
-    "chord_segment",
     "chord_direct",
 ]
 
@@ -124,49 +125,6 @@ def sublayer_depths(z_top_m: float, z_bot_m: float, v_top_ms: float, gradient_pe
     z = unflatten_depth(zf, radius_m)
     z[0], z[-1] = z_top_m, z_bot_m
     return z
-
-
-def chord_segment(p: np.ndarray, za: np.ndarray, zb: np.ndarray, v: float, turn: bool,
-                  radius_m: float = EARTH_RADIUS_M):
-    """Flat-equivalent integrals of a straight ray across a constant-velocity shell.
-
-    Parameters
-    ----------
-    p : numpy.ndarray
-        Horizontal slowness at the datum, s/m (``p_s = p R``).
-    za, zb : numpy.ndarray
-        Depths (metres) where the ray enters and leaves the shell, ``za <= zb``.
-    v : float
-        Shell velocity, m/s.
-    turn : bool
-        Whether the ray may bottom in the shell (at radius ``d = p R v``).
-
-    Returns
-    -------
-    X, dXdp, T, turned, r_turn
-        Arc distance at the datum (m), its derivative in p (m per s/m), time (s),
-        whether the ray bottomed here, and the bottoming radius (m).
-    """
-    R = radius_m
-    ra = R - za
-    rb = R - zb
-    d = p * R * v
-    with np.errstate(invalid="ignore", divide="ignore"):
-        sa = np.sqrt(np.maximum((ra - d) * (ra + d), 0.0))
-        enters = (zb > za) & (d < ra)
-        if turn:
-            turned = enters & (d >= rb)
-        else:
-            turned = np.zeros(np.shape(d), dtype=bool)
-        sb = np.where(turned, 0.0, np.sqrt(np.maximum((rb - d) * (rb + d), 0.0)))
-        length = np.where(turned, sa, (zb - za) * (ra + rb) / (sa + sb))
-        length = np.where(enters, length, 0.0)
-        delta = np.arctan2(d * length, d * d + sa * sb)
-        X = R * delta
-        T = length / v
-        dd = np.where(turned, -1.0 / sa, length / (sa * sb))
-        dX = np.where(enters, R * R * v * dd, 0.0)
-    return X, dX, T, turned, d
 
 
 def chord_direct(offset_m: np.ndarray, z1: np.ndarray, z2: np.ndarray, v: float,

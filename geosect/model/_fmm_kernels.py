@@ -19,6 +19,13 @@ Every node has a *region* code:
 ``3``
     fixed: active, but its time on entry is kept (the analytic times around a
     point source);
+``4``
+    band: active nodes just outside the layer being marched, carrying the
+    layer's velocity law a few cells beyond its boundary.  They keep the
+    nodes at the steps of a staircase boundary supplied with upwind
+    neighbours, but serve those nodes only in first-order differences: their
+    times may come from a wave running the other way (upstream of seeds), and
+    a second-order difference would extrapolate that inconsistency;
 ``2``
     halo: computed (from known active or halo neighbours) so that the field can
     be read or interpolated just outside the active region, but never used to
@@ -88,11 +95,11 @@ def _usable(region, state, n, halo_target):
     if state[n] != 2:
         return False
     r = region[n]
-    return r == 1 or r == 3 or (halo_target and r == 2)
+    return r == 1 or r == 3 or r == 4 or (halo_target and r == 2)
 
 
 @njit(**_JIT)
-def _axis(T, region, state, n, step, lo_ok, hi_ok, lo2_ok, hi2_ok, halo_target):
+def _axis(T, region, state, n, step, lo_ok, hi_ok, lo2_ok, hi2_ok, halo_target, own_target):
     """Upwind coefficient (alpha) and offset (beta) along one axis; alpha = 0 if none."""
     t_lo = math.inf
     t_hi = math.inf
@@ -110,7 +117,8 @@ def _axis(T, region, state, n, step, lo_ok, hi_ok, lo2_ok, hi2_ok, halo_target):
         n2 = n + 2 * step
     if not t1 < math.inf:
         return 0.0, 0.0, math.inf
-    if second_ok and _usable(region, state, n2, halo_target):
+    if second_ok and _usable(region, state, n2, halo_target) and not (
+            own_target and region[n2] == 4):
         t2 = T[n2]
         if t2 <= t1:
             return 2.25, (4.0 * t1 - t2) / 3.0, t1
@@ -148,17 +156,94 @@ def _solve(ax, bx, tx, az, bz, tz, sh):
 
 
 @njit(**_JIT)
-def _update(T, region, state, slow, n, nz, nx, h):
-    j = n // nx
-    i = n - j * nx
-    halo_target = region[n] == 2
-    ax, bx, tx = _axis(T, region, state, n, 1, i > 0, i < nx - 1, i > 1, i < nx - 2, halo_target)
-    az, bz, tz = _axis(T, region, state, n, nx, j > 0, j < nz - 1, j > 1, j < nz - 2, halo_target)
-    return _solve(ax, bx, tx, az, bz, tz, slow[n] * h)
+def _tri(TA, TB, sh):
+    """Update from a right triangle: axis neighbour A (time TA) and diagonal B (TB).
+
+    The front is taken as planar across the face AB (Kimmel & Sethian, 1998,
+    PNAS 95, 8431-8435); with legs of length h the minimum of
+    ``T(P) + s |P|`` over P on AB is ``TA + sqrt((s h)^2 - (TA - TB)^2)`` when
+    ``0 <= TA - TB <= s h / sqrt(2)``, otherwise one of the end points.
+    """
+    d = TA - TB
+    best = TA + sh
+    tb = TB + sh * 1.4142135623730951
+    if tb < best:
+        best = tb
+    if d >= 0.0 and d <= sh * 0.7071067811865476:
+        t = TA + math.sqrt(sh * sh - d * d)
+        if t < best:
+            best = t
+    return best
 
 
 @njit(**_JIT)
-def march(T, region, slow, nz, nx, h):
+def _update(T, region, state, slow, n, nz, nx, h, diagonal):
+    j = n // nx
+    i = n - j * nx
+    halo_target = region[n] == 2
+    own_target = region[n] == 1
+    ax, bx, tx = _axis(T, region, state, n, 1, i > 0, i < nx - 1, i > 1, i < nx - 2, halo_target,
+                       own_target)
+    az, bz, tz = _axis(T, region, state, n, nx, j > 0, j < nz - 1, j > 1, j < nz - 2, halo_target,
+                       own_target)
+    sh = slow[n] * h
+    best = _solve(ax, bx, tx, az, bz, tz, sh)
+    if not diagonal:
+        return best
+    # triangle updates: each axis neighbour with its two adjacent diagonals,
+    # and each diagonal alone
+    for q in range(4):
+        if q == 0:
+            ok = i > 0
+            a = n - 1
+            perp = nx
+            pj_lo = j > 0
+            pj_hi = j < nz - 1
+        elif q == 1:
+            ok = i < nx - 1
+            a = n + 1
+            perp = nx
+            pj_lo = j > 0
+            pj_hi = j < nz - 1
+        elif q == 2:
+            ok = j > 0
+            a = n - nx
+            perp = 1
+            pj_lo = i > 0
+            pj_hi = i < nx - 1
+        else:
+            ok = j < nz - 1
+            a = n + nx
+            perp = 1
+            pj_lo = i > 0
+            pj_hi = i < nx - 1
+        if not ok:
+            continue
+        a_ok = _usable(region, state, a, halo_target)
+        TA = T[a] if a_ok else math.inf
+        for side in range(2):
+            if side == 0:
+                if not pj_lo:
+                    continue
+                b = a - perp
+            else:
+                if not pj_hi:
+                    continue
+                b = a + perp
+            if not _usable(region, state, b, halo_target):
+                continue
+            TB = T[b]
+            if a_ok:
+                t = _tri(TA, TB, sh)
+            else:
+                t = TB + sh * 1.4142135623730951
+            if t < best:
+                best = t
+    return best
+
+
+@njit(**_JIT)
+def march(T, region, slow, nz, nx, h, diagonal=True):
     """Fast marching in place on a grid of ``nz`` rows by ``nx`` columns.
 
     Parameters
@@ -167,7 +252,7 @@ def march(T, region, slow, nz, nx, h):
         Times in seconds, row-major (row = depth index).  Finite entries are
         seeds (upper bounds); ``inf`` elsewhere.  Overwritten with the result.
     region : numpy.ndarray of int8, shape (nz * nx,)
-        0 excluded, 1 active, 2 halo, 3 fixed active (see the module notes).
+        0 excluded, 1 active, 2 halo, 3 fixed active, 4 band (see the module notes).
     slow : numpy.ndarray of float64, shape (nz * nx,)
         Slowness at each node, s/m.
     nz, nx : int
@@ -211,29 +296,40 @@ def march(T, region, slow, nz, nx, h):
         from_active = region[n] != 2
         j = n // nx
         i = n - j * nx
-        for q in range(4):
+        for q in range(8 if diagonal else 4):
+            di = 0
+            dj = 0
             if q == 0:
-                if i == 0:
-                    continue
-                m = n - 1
+                di = -1
             elif q == 1:
-                if i == nx - 1:
-                    continue
-                m = n + 1
+                di = 1
             elif q == 2:
-                if j == 0:
-                    continue
-                m = n - nx
+                dj = -1
+            elif q == 3:
+                dj = 1
+            elif q == 4:
+                di = -1
+                dj = -1
+            elif q == 5:
+                di = 1
+                dj = -1
+            elif q == 6:
+                di = -1
+                dj = 1
             else:
-                if j == nz - 1:
-                    continue
-                m = n + nx
+                di = 1
+                dj = 1
+            ii = i + di
+            jj = j + dj
+            if ii < 0 or ii >= nx or jj < 0 or jj >= nz:
+                continue
+            m = jj * nx + ii
             rm = region[m]
             if rm == 0 or rm == 3 or state[m] == 2:
                 continue
-            if rm == 1 and not from_active:
+            if (rm == 1 or rm == 4) and not from_active:
                 continue
-            t = _update(T, region, state, slow, m, nz, nx, h)
+            t = _update(T, region, state, slow, m, nz, nx, h, diagonal)
             if t < T[m]:
                 T[m] = t
                 if pos[m] < 0:

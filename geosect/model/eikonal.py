@@ -69,8 +69,11 @@ __all__ = [
 DEFAULT_SPACING_M: float = 250.0
 #: Half-width of the box of analytic times around a point source, in grid cells.
 SOURCE_BOX_CELLS: int = 10
-#: Depth of the halo of extrapolated times around each marched region, in cells.
-HALO_CELLS: int = 2
+#: Width of the band (in cells) over which a stage marches its layer's law beyond the layer,
+#: and of the halo of extrapolated times above the ground.
+HALO_CELLS: int = 3
+#: Air cells above the ground marched with the top layer's law (first-order use only).
+AIR_BAND_CELLS: int = 1
 #: Largest grid an automatic spacing may produce (nodes); the spacing is coarsened beyond.
 MAX_AUTO_NODES: int = 6_000_000
 #: Default vp/vs ratio when a section has no S velocities.
@@ -142,6 +145,7 @@ class LayerSection:
     layer_names: tuple[str, ...] = ()
     open_top: bool = True
     vpvs: float = DEFAULT_VPVS
+    _laws: Any = field(default=None, repr=False, compare=False)
 
     def __post_init__(self) -> None:
         ch = np.atleast_1d(np.asarray(self.chainage_m, dtype=float))
@@ -285,6 +289,11 @@ class LayerSection:
     def columns(self, x: np.ndarray, wave: str = "P") -> "_Columns":
         """The section at chainages ``x``: tops, velocity laws, surface (internal)."""
         x = np.asarray(x, dtype=float)
+        laws = getattr(self, "_laws", None)
+        if laws is not None:
+            tops, vt, g = laws(x, wave)
+            return _Columns(tops=np.maximum.accumulate(tops, axis=0), v_top=vt, grad=g,
+                            open_top=self.open_top)
         ch = self.chainage_m
 
         def at(a):
@@ -302,78 +311,70 @@ class LayerSection:
 
 
 def _section_from_layered(model: Any, chainage_m: np.ndarray | None) -> LayerSection:
-    """Sample a LayeredModel into a LayerSection (adapter of the agreed interface)."""
-    inames = list(getattr(model, "interface_names"))
-    lnames = list(getattr(model, "layer_names"))
-    if chainage_m is None:
-        chainage_m = _model_nodes(model)
-    x = np.atleast_1d(np.asarray(chainage_m, dtype=float))
-    n_layers = len(lnames)
-    if len(inames) != n_layers:
-        raise ModelError(f"model has {len(inames)} interfaces for {n_layers} layers",
+    """Sample a LayeredModel into a LayerSection (adapter of the agreed interface).
+
+    The section keeps the model's per-layer laws (top depth, velocity at the
+    top, gradient) at the nodes; when the model offers them per chainage
+    (``LayeredModel._columns``) the grid columns are evaluated from the model
+    itself, so that nothing is lost between nodes (a gradient set by top and
+    bottom velocities over a varying thickness is not linear in chainage).
+    """
+    inames = list(model.interface_names)
+    lnames = list(model.layer_names)
+    if len(inames) != len(lnames):
+        raise ModelError(f"model has {len(inames)} interfaces for {len(lnames)} layers",
                          fix="name the interface at the top of each layer")
-    tops = np.stack([np.broadcast_to(np.asarray(model.interface_depth(name, x), dtype=float),
-                                     x.shape) for name in inames])
-    tops = np.maximum.accumulate(tops, axis=0)
-    open_top = True
-    surface = _model_surface(model, x)
-    if surface is not None:
-        tops[0] = surface
-        tops = np.maximum.accumulate(tops, axis=0)
-        open_top = False
-    laws = {}
-    for wave in ("P", "S"):
-        vt = np.empty((n_layers, x.size))
-        g = np.empty((n_layers, x.size))
-        for k in range(n_layers):
-            top = tops[k]
-            bot = tops[k + 1] if k + 1 < n_layers else top + 1000.0
-            thick = bot - top
-            eps = np.minimum(1e-3, 1e-6 * np.maximum(thick, 1.0))
-            z1 = top + eps
-            z2 = np.where(thick > 2e-3, bot - eps, z1 + 1.0)
-            v1 = _model_velocity(model, x, z1, wave, k)
-            v2 = _model_velocity(model, x, z2, wave, k)
-            g[k] = (v2 - v1) / (z2 - z1)
-            vt[k] = v1 - g[k] * eps
-        laws[wave] = (vt, g)
-    return LayerSection(chainage_m=x, tops_m=tops, vp_top_ms=laws["P"][0],
-                        vp_gradient_per_s=laws["P"][1], vs_top_ms=laws["S"][0],
-                        vs_gradient_per_s=laws["S"][1], interface_names=tuple(inames),
-                        layer_names=tuple(lnames), open_top=open_top)
+    x = _model_nodes(model) if chainage_m is None else np.atleast_1d(
+        np.asarray(chainage_m, dtype=float))
+    open_top = getattr(model, "top", "datum") != "dem"
+    provider = getattr(model, "_columns", None)
+    if callable(provider):
+        def laws(xx, wave):
+            tops, vt, g = provider(np.asarray(xx, dtype=float), wave)
+            return np.asarray(tops, float), np.asarray(vt, float), np.asarray(g, float)
+    else:
+        def laws(xx, wave):
+            return _sampled_laws(model, inames, np.asarray(xx, dtype=float), wave)
+    tops, vp, gp = laws(x, "P")
+    _, vs, gs = laws(x, "S")
+    sec = LayerSection(chainage_m=x, tops_m=np.maximum.accumulate(tops, axis=0), vp_top_ms=vp,
+                       vp_gradient_per_s=gp, vs_top_ms=vs, vs_gradient_per_s=gs,
+                       interface_names=tuple(inames), layer_names=tuple(lnames),
+                       open_top=open_top)
+    object.__setattr__(sec, "_laws", laws)
+    return sec
 
 
 def _model_nodes(model: Any) -> np.ndarray:
-    for attr in ("chainage_nodes_m", "chainage_m", "nodes_chainage_m"):
-        val = getattr(model, attr, None)
-        if val is not None:
-            arr = np.unique(np.asarray(val, dtype=float).ravel())
-            if arr.size:
-                return arr
-    ext = getattr(model, "extent_m", None)
-    if callable(ext):
-        ext = ext()
-    if ext is not None:
-        lo, hi = (float(v) for v in ext)
-        if np.isfinite(lo) and np.isfinite(hi) and hi > lo:
-            return np.linspace(lo, hi, 201)
-    return np.array([0.0])
+    """Union of the chainage nodes of a model's interfaces and layers."""
+    nodes = [np.atleast_1d(np.asarray(getattr(part, "chainage_m"), dtype=float))
+             for part in list(getattr(model, "interfaces", [])) + list(getattr(model, "layers", []))
+             if getattr(part, "chainage_m", None) is not None]
+    if not nodes:
+        return np.array([0.0])
+    return np.unique(np.concatenate(nodes))
 
 
-def _model_surface(model: Any, x: np.ndarray) -> np.ndarray | None:
-    kind = getattr(model, "top_kind", None) or getattr(model, "top", None)
-    fn = getattr(model, "surface_depth", None)
-    if kind == "dem" or (kind is None and callable(fn) and getattr(model, "has_topography", False)):
-        if callable(fn):
-            return np.asarray(fn(x), dtype=float)
-        elev = getattr(model, "surface_elevation", None)
-        if callable(elev):
-            return -np.asarray(elev(x), dtype=float)
-    return None
-
-
-def _model_velocity(model: Any, x: np.ndarray, z: np.ndarray, wave: str, k: int) -> np.ndarray:
-    return np.asarray(model.velocity(x, z, wave=wave), dtype=float)
+def _sampled_laws(model: Any, inames: list[str], x: np.ndarray, wave: str):
+    """Layer laws from ``interface_depth`` and ``velocity`` only (duck-typed models)."""
+    n = len(inames)
+    tops = np.stack([np.broadcast_to(np.asarray(model.interface_depth(nm, x), dtype=float),
+                                     x.shape) for nm in inames])
+    tops = np.maximum.accumulate(tops, axis=0)
+    vt = np.empty((n, x.size))
+    g = np.empty((n, x.size))
+    for k in range(n):
+        top = tops[k]
+        bot = tops[k + 1] if k + 1 < n else top + 1000.0
+        thick = bot - top
+        eps = np.minimum(1e-3, 1e-6 * np.maximum(thick, 1.0))
+        z1 = top + eps
+        z2 = np.where(thick > 2e-3, bot - eps, z1 + 1.0)
+        v1 = np.asarray(model.velocity(x, z1, wave=wave), dtype=float)
+        v2 = np.asarray(model.velocity(x, z2, wave=wave), dtype=float)
+        g[k] = (v2 - v1) / (z2 - z1)
+        vt[k] = v1 - g[k] * eps
+    return tops, vt, g
 
 
 @dataclass
@@ -579,6 +580,7 @@ def _fd(T: np.ndarray, h: float, axis: int) -> np.ndarray:
     return np.where(fin, out, 0.0)
 
 
+_AIR_STRUCT = np.ones((2 * AIR_BAND_CELLS + 1, 2 * AIR_BAND_CELLS + 1), dtype=bool)
 _HALO_STRUCT = np.ones((2 * HALO_CELLS + 1, 2 * HALO_CELLS + 1), dtype=bool)
 
 
@@ -593,20 +595,41 @@ def _run(setup: _Setup, name: str, active_full: np.ndarray | None, layer: int,
             return None
         r0 = max(rr[0] - HALO_CELLS, 0)
         r1 = min(rr[1] + HALO_CELLS, g.nz)
-        active = setup.L[r0:r1] == layer
+        own = setup.L[r0:r1] == layer
+        # the layer's law is marched over the layer and a band of HALO_CELLS cells
+        # around it in the neighbouring layers (so that nodes at the steps of a
+        # staircase boundary keep their upwind neighbours); air is never
+        # traversed: it only receives extrapolated times (halo)
+        band = ndimage.binary_dilation(own, structure=_HALO_STRUCT)
+        ground = setup.L[r0:r1] >= 0
+        active = band & ground
+        halo = band & ~ground
     else:
         r0, r1 = 0, g.nz
-        active = active_full
+        own = active = active_full
+        halo = ndimage.binary_dilation(active, structure=_HALO_STRUCT) & ~active
     nr = r1 - r0
-    halo = ndimage.binary_dilation(active, structure=_HALO_STRUCT) & ~active
-    region = np.where(active, 1, np.where(halo, 2, 0)).astype(np.int8)
+    # band nodes on the side the wave came from (upstream of the seeds) serve the
+    # layer's nodes only in first-order differences (code 4); elsewhere the band
+    # is a plain continuation of the layer (code 1)
+    if active_full is None and seed_dir != 0:
+        Lsub = setup.L[r0:r1]
+        upstream = (Lsub < layer) if seed_dir > 0 else (Lsub > layer)
+    else:
+        upstream = np.zeros_like(own)
+    # the air right above the ground (AIR_BAND_CELLS) is marched too, in
+    # first-order use only, so that ground nodes at the steps of a staircase
+    # surface keep an upwind neighbour; the air beyond is halo (never traversed)
+    air_band = halo & ndimage.binary_dilation(active, structure=_AIR_STRUCT)
+    region = np.where(active & (own | ~upstream), 1,
+                      np.where(active | air_band, 4, np.where(halo, 2, 0))).astype(np.int8)
     T = np.full((nr, g.nx), np.inf)
     n_seed = 0
     for rows, cols, t in seeds:
         rr_ = rows - r0
         ok = (rr_ >= 0) & (rr_ < nr) & np.isfinite(t)
         rr_, cc, tt = rr_[ok], cols[ok], t[ok]
-        ok = active[rr_, cc]
+        ok = own[rr_, cc]
         rr_, cc, tt = rr_[ok], cc[ok], tt[ok]
         np.minimum.at(T, (rr_, cc), tt)
         if fixed:
@@ -617,7 +640,7 @@ def _run(setup: _Setup, name: str, active_full: np.ndarray | None, layer: int,
     if slow is None:
         slow = setup.slowness(layer, r0, r1)
     march(T.ravel(), region.ravel(), np.ascontiguousarray(slow, dtype=float).ravel(),
-          nr, g.nx, g.h)
+          nr, g.nx, g.h, True)
     return _Stage(name=name, layer=layer, r0=r0, T=T, region=region, parent=parent,
                   seed_iface=seed_iface, seed_dir=seed_dir, seeded_cols=seeded_cols)
 
@@ -664,15 +687,32 @@ def _deriv(t: np.ndarray, h: float) -> np.ndarray:
     return d
 
 
+#: Half-width of the window of interface points searched for each seed, in cells.
+SEED_WINDOW_CELLS: int = 8
+#: Interface points per cell in that window.
+SEED_SUBSAMPLES: int = 4
+
+
 def _seeds(setup: _Setup, k: int, tI: np.ndarray, layer: int, below: bool,
            reflect: bool = False) -> list[tuple[np.ndarray, np.ndarray, np.ndarray]]:
-    """Plane-wave times on the two grid rows next to interface k, in ``layer``.
+    """Times on the two grid rows next to interface k, in ``layer``, from interface times.
 
     ``below``: the rows just below the interface (the wave goes down into
-    ``layer``); otherwise the rows just above (it goes up).  The tangential
-    slowness along the interface is kept (Snell's law); the normal one follows
-    from the slowness of ``layer``.  Where the tangential slowness exceeds it
-    (beyond the critical angle) no seed is placed, unless ``reflect``.
+    ``layer``); otherwise the rows just above (it goes up).  Each seed node P
+    takes the least time over points Q of the interface near it (Huygens'
+    principle, which is also Fermat's principle for the leg from Q to P):
+
+    .. math:: t(P) = \\min_Q \\left[ t_I(Q) + s\\,|PQ| \\right],
+
+    with the interface times :math:`t_I` interpolated linearly between grid
+    columns, :math:`SEED\\_SUBSAMPLES` points per cell over
+    :math:`\\pm SEED\\_WINDOW\\_CELLS` cells, and :math:`s` the slowness of
+    ``layer`` averaged between P and the interface.  Unlike a plane-wave
+    extrapolation this keeps the curvature of the front, which matters near the
+    critical angle.  For a transmitted wave no seed is placed where the times
+    along the interface change faster than the slowness of ``layer`` allows
+    (beyond the critical angle: that part of the layer is reached along the
+    interface instead); ``reflect`` keeps every column.
     """
     g, c = setup.grid, setup.cols
     f = c.tops[k]
@@ -680,29 +720,44 @@ def _seeds(setup: _Setup, k: int, tI: np.ndarray, layer: int, below: bool,
     N = np.sqrt(1.0 + fp * fp)
     p = _deriv(tI, g.h) / N
     cols = np.arange(g.nx)
+    W, S = SEED_WINDOW_CELLS, SEED_SUBSAMPLES
+    m = np.arange(-W * S, W * S + 1)
+    # interface points Q around each column: fractional column positions
+    pos = cols[:, None] + m[None, :] / S
+    i0 = np.floor(pos).astype(int)
+    w = pos - i0
+    inside_q = (i0 >= 0) & (i0 < g.nx)
+    i0c = np.clip(i0, 0, g.nx - 1)
+    i1c = np.clip(i0 + 1, 0, g.nx - 1)
+    t0, t1 = tI[i0c], tI[i1c]
+    with np.errstate(invalid="ignore"):
+        tq = np.where(w == 0.0, t0, (1.0 - w) * t0 + w * t1)
+    tq = np.where(inside_q, tq, np.nan)
+    xq = g.x0 + g.h * pos
+    zq = (1.0 - w) * f[i0c] + w * f[i1c]
+    tq = np.where(np.isfinite(tq), tq, np.inf)
     out = []
     offsets = (0, 1) if below else (-1, -2)
     for off in offsets:
         j = setup.jb[k] + off
         inside = (j >= 0) & (j < g.nz)
         jj = np.clip(j, 0, g.nz - 1)
-        ok = inside & (setup.L[jj, cols] == layer) & np.isfinite(tI) & np.isfinite(p)
+        ok = inside & (setup.L[jj, cols] == layer) & np.isfinite(tI)
         z = g.z0 + g.h * jj
-        d = np.abs(z - f)
         s = 0.5 * (1.0 / c.velocity(layer, f) + 1.0 / c.velocity(layer, z))
-        q2 = s * s - p * p
-        if reflect:
-            q2 = np.maximum(q2, 0.0)
-        else:
-            ok &= q2 >= 0.0
-        q = np.sqrt(np.maximum(q2, 0.0))
-        with np.errstate(invalid="ignore"):
-            if below:
-                t = tI + d * (p * fp + q) / N
-            else:
-                t = tI + d * (q - p * fp) / N
+        if not reflect:
+            with np.errstate(invalid="ignore"):
+                ok &= np.isfinite(p) & (p * p <= s * s)
         sel = np.flatnonzero(ok)
-        out.append((jj[sel], cols[sel], t[sel]))
+        if sel.size == 0:
+            out.append((jj[sel], cols[sel], np.zeros(0)))
+            continue
+        xp = (g.x0 + g.h * sel)[:, None]
+        zp = z[sel][:, None]
+        dist = np.hypot(xq[sel] - xp, zq[sel] - zp)
+        t = np.min(tq[sel] + s[sel][:, None] * dist, axis=1)
+        good = np.isfinite(t)
+        out.append((jj[sel][good], sel[good], t[good]))
     return out
 
 

@@ -313,3 +313,19 @@ def test_ray_path_ends(crust):
     last = np.array([row[np.isfinite(row)][-1] for row in px])
     np.testing.assert_allclose(last, [30e3, 120e3], atol=1e-6)
     assert np.nanmax(pz) == pytest.approx(35e3)
+
+
+def test_s_waves_scale_with_vpvs():
+    # one vp/vs for every layer scales all velocities by 1/k, so every S time is k times the
+    # P time at the same offset (the ray geometry is unchanged)
+    k = 1.76
+    m = LayeredModel.flat([0, 15e3, 33e3], [5900, 6600, 8100], names=["surface", "conrad", "moho"],
+                          vpvs=k, gradients=[0.02, 0.01, 0.0])
+    x = np.linspace(0.0, 250e3, 26)
+    for ph in ("direct", "reflection:moho", "head:moho", "head:conrad", "first"):
+        tp = m.traveltime(x, ph, source_depth_m=2e3)
+        ts = m.traveltime(x, "S:" + ph, source_depth_m=2e3)
+        np.testing.assert_allclose(ts, k * tp, rtol=1e-10)
+    # S velocities given directly: the gradient keeps each layer's vs/vp
+    m2 = LayeredModel.flat([0, 10e3], [5000, 6000], vs_ms=[2900, 3400], gradients=[0.05, 0.0])
+    assert m2.velocity(0.0, 5e3, wave="S") == pytest.approx(2900 + 0.05 * 2900 / 5000 * 5e3)

@@ -78,7 +78,7 @@ def fresnel_radius(depth_m, velocity_ms, frequency_hz, *, approximate: bool = Fa
     Examples
     --------
     >>> round(float(fresnel_radius(2000.0, 3000.0, 30.0)), 3)
-    316.426
+    317.214
     """
     z = np.asarray(depth_m, float)
     lam = np.asarray(velocity_ms, float) / np.asarray(frequency_hz, float)

@@ -435,7 +435,8 @@ class LayeredModel:
         has_vs = lay.vs_top_ms is not None
         if has_vs and lay.vpvs is not None:
             raise _model_error(f"layer '{lay.name}' has both vs and vp/vs",
-                               "give either the S velocities or the vp/vs ratio", ("layer", i, "vs"))
+                               "give either the S velocities or the vp/vs ratio",
+                               ("layer", i, "vs"))
         if not has_vs and lay.vpvs is None:
             raise _model_error(f"layer '{lay.name}' has no S velocity",
                                "give vp/vs (for example 1.73) or vs at the top and bottom",
@@ -461,8 +462,8 @@ class LayeredModel:
                                        "give a gradient of 0 or more", ("layer", i, "vs_gradient"))
             else:
                 if lay.vs_bottom_ms is None:
-                    raise _model_error(f"layer '{lay.name}' has vs at its top but not at its bottom",
-                                       "give vs_bottom too", ("layer", i, "vs_bottom"))
+                    raise _model_error(f"layer '{lay.name}' has vs at its top but not at its "
+                                       "bottom", "give vs_bottom too", ("layer", i, "vs_bottom"))
                 _nodes(f"layer '{lay.name}' vs_bottom", lay.vs_bottom_ms, k,
                        ("layer", i, "vs_bottom"))
         checks = [("vp_top", lay.vp_top_ms), ("vp_bottom", lay.vp_bottom_ms)]

@@ -59,6 +59,7 @@ DEMO_FILES: tuple[str, ...] = (
     "horizons/reflector_a.csv",
     "horizons/reflector_b_twt.csv",
     "horizons/deep_boundary_depth.tif",
+    "model.toml",
 )
 
 _WORK_EPSG = 32624  # UTM zone 24N
@@ -668,6 +669,7 @@ def _toml_text() -> str:
 #   [faults]       fault traces, with strike and dip, projected into the section
 #   [hypocentres]  earthquake catalogue projected into the section
 #   [[horizons]]   interpreted horizons: in depth, in two-way time, or as a depth grid
+#   [model]        the velocity model (model.toml) and the Earth's curvature for 1D times
 #   [rays]         phases to trace and the dominant frequency for Fresnel zones
 #   [section]      half-width of the swath projected into the section
 #   [map]          chainage ticks on the map
@@ -754,6 +756,10 @@ name = "Regional Moho estimate"
 file = "horizons/deep_boundary_depth.tif"
 kind = "depth-grid"
 
+[model]
+file = "model.toml"          # 2D layered model (geosect's model file layout, km and km/s)
+earth = "auto"               # spherical Earth for offsets over 100 km
+
 [rays]
 phases = ["reflection:conrad", "reflection:moho", "head:moho", "direct"]
 frequency_hz = 8.0
@@ -825,6 +831,28 @@ or licensed practice; where they differ from anything here, they win.
 
 
 # ----------------------------------------------------------------------------- public API
+
+
+def _model_text(road_geojson: str) -> str:
+    """The sample 2D velocity model, recording the section line exactly as geosect will build it.
+
+    The road is read back from the GeoJSON text that is written (rounded coordinates and all), put into the
+    working CRS the project chooses ('auto' gives UTM zone 24N here) and oriented south to north, as the
+    project file says, so the model's line signature matches the line of every build.
+    """
+    import json
+
+    from pyproj import CRS
+
+    from .crs import from_lonlat
+    from .line import SurveyLine
+    from .model.sample import sample_model_toml
+    from .stages.rays import line_signature
+
+    coords = np.asarray(json.loads(road_geojson)["features"][0]["geometry"]["coordinates"], float)
+    e, n = from_lonlat(CRS.from_epsg(_WORK_EPSG), coords[:, 0], coords[:, 1])
+    line = SurveyLine(e, n).oriented("south-north")
+    return sample_model_toml(line.length / 1e3, line_signature(line))
 
 
 def write_demo(directory: str | os.PathLike, *, overwrite: bool = False) -> list[Path]:
@@ -907,6 +935,7 @@ def write_demo(directory: str | os.PathLike, *, overwrite: bool = False) -> list
         "horizons/reflector_a.csv": _reflector_a(road),
         "horizons/reflector_b_twt.csv": _reflector_b(road),
     }
+    texts["model.toml"] = _model_text(texts["road.geojson"])
     written: dict[str, Path] = {}
     for name, text in texts.items():
         written[name] = write_bytes(root / name, text.encode("utf-8"))

@@ -14,7 +14,7 @@ import pandas as pd
 
 from .errors import InputError
 
-__all__ = ["pair_index", "pair_geometry", "recorded_pairs", "iter_shot_gathers", "PAIR_FLAGS"]
+__all__ = ["pair_index", "pair_geometry", "recorded_pairs", "iter_shot_gathers", "iter_pair_chunks", "PAIR_FLAGS"]
 
 PAIR_FLAGS = {
     "offset_mismatch": "geodesic and along-line offsets differ by more than the set fraction (crooked line or fan "
@@ -121,3 +121,36 @@ def iter_shot_gathers(shots: pd.DataFrame, stations: pd.DataFrame,
             if ids is None:
                 continue
             yield shot, usable_st[usable_st["id"].isin(ids)]
+
+
+def iter_pair_chunks(shots: pd.DataFrame, stations: pd.DataFrame, recorded: pd.DataFrame | None = None, *,
+                     max_pairs: int = 500_000) -> Iterator[tuple[pd.DataFrame, pd.DataFrame, np.ndarray, np.ndarray]]:
+    """Yield ``(usable_shots, usable_stations, si, ri)`` in chunks of whole shots with at most ``max_pairs`` pairs.
+
+    ``si`` and ``ri`` index the usable tables positionally, shot-major.  Without ``recorded`` every usable shot
+    is paired with every usable station; with it, the recorded pairs whose ids are both usable.
+    """
+    sh = shots[shots["status"] == "ok"].reset_index(drop=True)
+    st = stations[stations["status"] == "ok"].reset_index(drop=True)
+    if recorded is None:
+        si_all, ri_all = pair_index(len(sh), len(st))
+    else:
+        ok = recorded[recorded["status"] == "ok"]
+        si_all = pd.Index(sh["id"]).get_indexer(ok["shot_id"])
+        ri_all = pd.Index(st["id"]).get_indexer(ok["station_id"])
+        keep = (si_all >= 0) & (ri_all >= 0)  # pairs naming an unusable shot or station are not computed
+        si_all, ri_all = si_all[keep], ri_all[keep]
+        order = np.argsort(si_all, kind="stable")
+        si_all, ri_all = si_all[order], ri_all[order]
+    if si_all.size == 0:
+        return
+    starts = np.flatnonzero(np.r_[True, si_all[1:] != si_all[:-1]])  # first pair of each shot
+    bounds = np.r_[starts, si_all.size]
+    a = 0
+    while a < len(starts):  # a loop over groups of shots
+        b = a + 1
+        while b < len(starts) and bounds[b + 1] - bounds[a] <= max_pairs:
+            b += 1
+        lo, hi = bounds[a], bounds[b]
+        yield sh, st, si_all[lo:hi], ri_all[lo:hi]
+        a = b

@@ -15,7 +15,7 @@ from ..crs import to_lonlat
 from ..errors import InputError
 from ..io.atomic import atomic_path
 from ..io.tables import PARQUET_ROWS, round_for_output
-from ..pairs import iter_shot_gathers, pair_geometry, recorded_pairs
+from ..pairs import iter_pair_chunks, pair_geometry, recorded_pairs
 from ..pipeline import Context, register
 from ..report import md_escape
 
@@ -112,12 +112,10 @@ def _solve_columns(model, phase, geom, zs, zr, spherical, group_m: float = 2000.
     return out, status
 
 
-def _source_depth(shot: pd.Series) -> float:
-    elev = shot["elevation_m"] if np.isfinite(shot["elevation_m"]) else shot["dem_elevation_m"]
-    elev = 0.0 if not np.isfinite(elev) else float(elev)
-    depth = shot.get("depth_m", 0.0)
-    depth = 0.0 if depth is None or not np.isfinite(depth) else float(depth)
-    return -elev + depth
+def _source_depths(shots: pd.DataFrame) -> np.ndarray:
+    """Source depth below the datum, m: minus the elevation (surveyed, else DEM, else 0) plus the hole depth."""
+    return _receiver_depth(shots) + np.nan_to_num(shots["depth_m"].to_numpy(float), nan=0.0) \
+        if "depth_m" in shots else _receiver_depth(shots)
 
 
 def _receiver_depth(stations: pd.DataFrame) -> np.ndarray:
@@ -145,35 +143,29 @@ def compute_rays(ctx: Context) -> None:
                              file=s.source, key="rays.phases",
                              fix="interfaces in the model: " + ", ".join(model.interface_names) + ".")
     max_off = None if s.rays.max_offset_km is None else s.rays.max_offset_km * 1e3
-    gathers = list(iter_shot_gathers(shots, stations, recorded))
+    chunks = list(iter_pair_chunks(shots, stations, recorded))
     target = ctx.output("rays.csv")
     n_rows = 0
     counts: dict[tuple[str, str], int] = {}
     keep_points: list[pd.DataFrame] = []
     keep_mid: list[pd.DataFrame] = []
-    parquet_parts: list[pd.DataFrame] = []
     spherical_used = set()
     with atomic_path(target) as tmp:
         with open(tmp, "w", newline="") as fh:
             header = True
-            for shot, rec in ctx.progress.iter(gathers, len(gathers), "shots"):
-                if rec.empty:
-                    continue
-                one = shot.to_frame().T.reset_index(drop=True)
-                for c in ("easting", "northing", "lon", "lat", "chainage_m"):
-                    one[c] = one[c].astype(float)
-                geom = pair_geometry(one, rec.reset_index(drop=True), np.zeros(len(rec), np.int64),
-                                     np.arange(len(rec)), line, offset_mismatch=s.rays.offset_mismatch,
+            for sh, st, si, ri in ctx.progress.iter(chunks, len(chunks), "groups of shots"):
+                geom = pair_geometry(sh, st, si, ri, line, offset_mismatch=s.rays.offset_mismatch,
                                      max_offset_m=max_off)
                 keep_mid.append(geom)
-                zs = np.full(len(rec), _source_depth(shot))
-                zr = _receiver_depth(rec.reset_index(drop=True))
+                zs = _source_depths(sh)[si]
+                zr = _receiver_depth(st)[ri]
                 off = geom["offset_m"].to_numpy()
                 spherical = _earth(ctx, float(np.nanmax(off)) if len(off) else 0.0)
                 spherical_used.add(spherical)
+                ends = (sh["easting"].to_numpy()[si], sh["northing"].to_numpy()[si],
+                        st["easting"].to_numpy()[ri], st["northing"].to_numpy()[ri])
                 for p in phases:
-                    rows = _phase_rows(ctx, model, p, parsed[p], geom, shot, rec.reset_index(drop=True), zs, zr,
-                                       spherical, crs)
+                    rows = _phase_rows(ctx, model, p, parsed[p], geom, ends, zs, zr, spherical, crs)
                     for st_, n_ in rows["status"].value_counts().items():
                         counts[(p, st_)] = counts.get((p, st_), 0) + int(n_)
                     out = round_for_output(rows[RAY_COLUMNS + EXTRA_COLUMNS])
@@ -181,8 +173,6 @@ def compute_rays(ctx: Context) -> None:
                     header = False
                     n_rows += len(out)
                     keep_points.append(rows)
-                    if n_rows > PARQUET_ROWS or parquet_parts:
-                        parquet_parts.append(out)
     rp = pd.concat(keep_points, ignore_index=True) if keep_points else pd.DataFrame(columns=RAY_COLUMNS)
     ctx.artefacts["rays"] = rp
     ctx.artefacts["reflection_points"] = rp[np.isfinite(rp["point_depth_m"].to_numpy(float))].reset_index(drop=True)
@@ -199,7 +189,11 @@ def compute_rays(ctx: Context) -> None:
     _report(ctx, rp, counts, phases, spherical_used, recorded)
 
 
-def _phase_rows(ctx, model, p, ph, geom, shot, rec, zs, zr, spherical, crs) -> pd.DataFrame:
+def _phase_rows(ctx, model, p, ph, geom, ends, zs, zr, spherical, crs) -> pd.DataFrame:
+    """The rays.csv rows of one phase for the pairs in ``geom`` (vectorised over the pairs).
+
+    ``ends`` = (source easting, source northing, receiver easting, receiver northing), arrays per pair.
+    """
     line = ctx.artefacts["line"]
     off = geom["offset_m"].to_numpy()
     n = len(off)
@@ -223,9 +217,9 @@ def _phase_rows(ctx, model, p, ph, geom, shot, rec, zs, zr, spherical, crs) -> p
     with np.errstate(invalid="ignore", divide="ignore"):
         frac = np.clip(vals["point_distance_m"] / np.where(off > 0, off, np.nan), 0.0, 1.0)
     frac = np.where(off == 0, 0.5, frac)
-    se, sn = float(shot["easting"]), float(shot["northing"])
-    pe = se + frac * (rec["easting"].to_numpy() - se)
-    pn = sn + frac * (rec["northing"].to_numpy() - sn)
+    se, sn, re_, rn = ends
+    pe = se + frac * (re_ - se)
+    pn = sn + frac * (rn - sn)
     has_point = np.isfinite(vals["point_depth_m"])
     pe = np.where(has_point, pe, np.nan)
     pn = np.where(has_point, pn, np.nan)

@@ -19,7 +19,7 @@ _DEGREE_COLUMNS = ("lon", "lat")
 
 
 def round_for_output(df: pd.DataFrame) -> pd.DataFrame:
-    """Round floats for people: degrees to 1e-8 (about 1 mm), seconds to 1e-6, everything else to 1e-3."""
+    """Round floats for people: degrees to 1e-8 (about 1 mm), seconds to 1e-6, slowness to 1e-9, the rest to 1e-3."""
     out = df.copy()
     for c in out.columns:
         if not pd.api.types.is_float_dtype(out[c].dtype):
@@ -27,6 +27,8 @@ def round_for_output(df: pd.DataFrame) -> pd.DataFrame:
         name = str(c)
         if name in _DEGREE_COLUMNS or name.endswith(("_lon", "_lat")):
             out[c] = out[c].round(8)
+        elif "ray_parameter" in name or "slowness" in name:
+            out[c] = out[c].round(9)
         elif name.endswith("_s") or name in ("time_s",):
             out[c] = out[c].round(6)
         else:

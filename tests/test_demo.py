@@ -174,7 +174,7 @@ def test_project_file_schema(project):
     cfg = tomllib.loads((project / "geosect.toml").read_text())
     assert set(cfg) == {
         "project", "stations", "shots", "line", "binning", "dem", "geology", "faults",
-        "hypocentres", "horizons", "rays", "section", "map",
+        "hypocentres", "horizons", "model", "rays", "section", "map",
     }
     assert cfg["project"] == {"name": "Tarvanne Range transect (synthetic sample)", "crs": "auto", "output": "out"}
     assert cfg["stations"]["columns"] == {"id": "code", "x": "lon", "y": "lat", "elevation": "elev_m"}
@@ -185,7 +185,8 @@ def test_project_file_schema(project):
         "method": "file", "file": "road.geojson", "direction": "south-north",
         "far_off_line_km": 10.0, "bend_threshold_deg": 20.0,
     }
-    assert cfg["binning"] == {"bin_m": 50.0, "line": "smooth", "smoothing_km": 2.0}
+    assert cfg["binning"] == {"bin_m": 50.0, "line": "smooth", "smoothing_km": 2.0, "max_offset_km": 12.0}
+    assert cfg["model"] == {"file": "model.toml", "earth": "auto"}
     assert cfg["hypocentres"]["columns"] == {
         "x": "lon", "y": "lat", "depth_km": "depth_km", "magnitude": "mag", "time": "time_utc",
     }
@@ -195,7 +196,8 @@ def test_project_file_schema(project):
     }
     assert cfg["section"] == {"swath_km": 15.0} and cfg["map"] == {"chainage_tick_km": 10.0}
     # every file it names exists, and its columns are in the files
-    files = [cfg[k]["file"] for k in ("stations", "shots", "line", "dem", "geology", "faults", "hypocentres")]
+    files = [cfg[k]["file"] for k in ("stations", "shots", "line", "dem", "geology", "faults", "hypocentres",
+                                      "model")]
     files += [h["file"] for h in cfg["horizons"]]
     for f in files:
         assert (project / f).is_file(), f

@@ -253,7 +253,8 @@ class SectionSettings:
     depth_min_km: float = opt(-4.0, "Top of the section, km (negative = above the datum).")
     depth_max_km: float | None = opt(None, "Bottom of the section, km; from the model when not set.")
     exaggeration: float = opt(1.0, "Vertical exaggeration of the section.", minimum=0.0, exclusive_min=True)
-    size: str = opt("full-page", "Size preset.", choices=("single-column", "double-column", "full-page"))
+    size: str = opt("double-column", "Size preset: 89 mm wide, 183 mm wide (height from the content), or a "
+                    "183 x 240 mm page.", choices=("single-column", "double-column", "full-page"))
     topo_panel: bool = opt(True, "Draw an exaggerated topography panel on top.")
     topo_exaggeration: float = opt(5.0, "Vertical exaggeration of the topography panel.", minimum=0.0,
                                    exclusive_min=True)

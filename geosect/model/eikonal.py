@@ -1661,16 +1661,28 @@ def ray_paths(fld: TimeField, receivers_chainage_m, receivers_depth_m, *,
                 continue
             sel = act[cur[act] == si]
             f = _interp_cols(s, s.cols.tops[st.seed_iface], nxp[sel])
-            crossed = (nzp[sel] < f) if st.seed_dir > 0 else (nzp[sel] > f)
+            # the stage started from its seeds, the two grid rows next to the
+            # interface: reaching them means reaching the interface, which the
+            # path then meets by continuing its last step
+            reach = 2.0 * g.h
+            crossed = (nzp[sel] < f + reach) if st.seed_dir > 0 else (nzp[sel] > f - reach)
             if not crossed.any():
                 continue
             cs = sel[crossed]
+            fc = f[crossed]
+            dxs = nxp[cs] - cx[cs]
+            dzs = nzp[cs] - cz[cs]
+            toward = dzs * st.seed_dir < -0.05 * ds
+            with np.errstate(divide="ignore", invalid="ignore"):
+                run = np.where(toward, (fc - nzp[cs]) * dxs / dzs, 0.0)
+            nxp[cs] = nxp[cs] + run
+            fc = _interp_cols(s, s.cols.tops[st.seed_iface], nxp[cs])
             ic = np.clip(np.rint((nxp[cs] - g.x0) / g.h).astype(int), 0, g.nx - 1)
             seeded = np.zeros(g.nx, dtype=bool)
             if st.seeded_cols is not None:
                 seeded[st.seeded_cols] = True
             fed = seeded[ic]
-            nzp[cs] = f[crossed]
+            nzp[cs] = fc
             go = cs[fed]
             if go.size and st.parent is not None:
                 if head_k is not None and st.seed_iface == head_k and st.seed_dir < 0:

@@ -243,6 +243,73 @@ def _update(T, region, state, slow, n, nz, nx, h, diagonal):
 
 
 @njit(**_JIT)
+def _update_from(T, region, state, slow, m, n, di, dj, nz, nx, h):
+    """New time of node m after its neighbour n (at offset -di, -dj from m) became known.
+
+    The cross stencil of m is recomputed in full; of the triangle updates only
+    those that use n can have changed, so only they are evaluated.
+    """
+    j = m // nx
+    i = m - j * nx
+    halo_target = region[m] == 2
+    own_target = region[m] == 1
+    ax, bx, tx = _axis(T, region, state, m, 1, i > 0, i < nx - 1, i > 1, i < nx - 2, halo_target,
+                       own_target)
+    az, bz, tz = _axis(T, region, state, m, nx, j > 0, j < nz - 1, j > 1, j < nz - 2, halo_target,
+                       own_target)
+    sh = slow[m] * h
+    best = _solve(ax, bx, tx, az, bz, tz, sh)
+    Tn = T[n]
+    if di == 0 or dj == 0:
+        # n is an axis neighbour (A); its two neighbours across the axis are the B's
+        if di == 0:
+            # n above or below m: B = n - 1, n + 1 (same row as n)
+            jn = j - dj
+            if i > 0:
+                b = jn * nx + i - 1
+                if _usable(region, state, b, halo_target):
+                    t = _tri(Tn, T[b], sh)
+                    if t < best:
+                        best = t
+            if i < nx - 1:
+                b = jn * nx + i + 1
+                if _usable(region, state, b, halo_target):
+                    t = _tri(Tn, T[b], sh)
+                    if t < best:
+                        best = t
+        else:
+            i_n = i - di
+            if j > 0:
+                b = (j - 1) * nx + i_n
+                if _usable(region, state, b, halo_target):
+                    t = _tri(Tn, T[b], sh)
+                    if t < best:
+                        best = t
+            if j < nz - 1:
+                b = (j + 1) * nx + i_n
+                if _usable(region, state, b, halo_target):
+                    t = _tri(Tn, T[b], sh)
+                    if t < best:
+                        best = t
+    else:
+        # n is a diagonal neighbour (B); the A's are m's axis neighbours next to it
+        t = Tn + sh * 1.4142135623730951
+        if t < best:
+            best = t
+        a = j * nx + (i - di)
+        if _usable(region, state, a, halo_target):
+            t = _tri(T[a], Tn, sh)
+            if t < best:
+                best = t
+        a = (j - dj) * nx + i
+        if _usable(region, state, a, halo_target):
+            t = _tri(T[a], Tn, sh)
+            if t < best:
+                best = t
+    return best
+
+
+@njit(**_JIT)
 def march(T, region, slow, nz, nx, h, diagonal=True):
     """Fast marching in place on a grid of ``nz`` rows by ``nx`` columns.
 
@@ -329,7 +396,10 @@ def march(T, region, slow, nz, nx, h, diagonal=True):
                 continue
             if (rm == 1 or rm == 4) and not from_active:
                 continue
-            t = _update(T, region, state, slow, m, nz, nx, h, diagonal)
+            if diagonal:
+                t = _update_from(T, region, state, slow, m, n, di, dj, nz, nx, h)
+            else:
+                t = _update(T, region, state, slow, m, nz, nx, h, False)
             if t < T[m]:
                 T[m] = t
                 if pos[m] < 0:

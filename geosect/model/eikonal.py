@@ -76,6 +76,8 @@ HALO_CELLS: int = 3
 AIR_BAND_CELLS: int = 1
 #: Largest grid an automatic spacing may produce (nodes); the spacing is coarsened beyond.
 MAX_AUTO_NODES: int = 6_000_000
+#: Half-width of the grid around the source for a model with no extent along the line, metres.
+DEFAULT_HALF_SPAN_M: float = 100e3
 #: Default vp/vs ratio when a section has no S velocities.
 DEFAULT_VPVS: float = 1.73
 
@@ -1187,23 +1189,21 @@ class TimeField:
         kind = ph.kind
         if self.method != "grid" and kind in ("head", "reflection", "turning"):
             k = self._k
-            lim = k if kind != "turning" else k
             if kind == "turning" and k == sv.ks:
-                below = layer != k
-            else:
-                below = (layer >= lim) | (sv.ks >= lim)
-            status[usable & below] = "endpoint_below_interface" if not (
-                kind == "turning" and k == sv.ks) else "no_ray"
-            if kind == "turning" and k < sv.ks:
+                # diving through the source's own layer: receivers in that layer only
+                status[usable & (layer != k)] = "no_ray"
+            elif k <= sv.ks if kind != "turning" else k < sv.ks:
+                # the source lies below the reflector or refractor
                 status[usable] = "endpoint_below_interface"
+            else:
+                status[usable & (layer >= k)] = "endpoint_below_interface"
             usable &= status == "ok"
             if kind in ("head", "turning") and k > sv.ks and usable.any():
                 if s.layer_rows(k) is None or sv.D(k) is None:
                     status[usable] = "pinched_out"
-                    usable &= False
                 elif not sv.zone(k).any():
                     status[usable] = "not_head_wave_interface"
-                    usable &= False
+                usable &= status == "ok"
             if kind == "turning" and usable.any() and not np.any(s.cols.grad[k] > 0):
                 status[usable] = "no_ray"
                 usable &= False
@@ -1310,7 +1310,8 @@ def time_field(model: Any, source_chainage_m: float, source_depth_m: float,
         Dominant frequency, Hz, used to choose the default spacing.
     chainage_range_m : (float, float), optional
         Chainage span of the grid, metres (default: the model's nodes and the
-        source, with a margin of 10 cells).
+        source, with a margin of 10 cells; for a model without lateral nodes,
+        :data:`DEFAULT_HALF_SPAN_M` either side of the source).
     max_depth_m : float, optional
         Depth of the bottom of the grid, metres (default: 10 cells below the
         deepest interface, deeper when the half-space has a velocity gradient).
@@ -1352,6 +1353,11 @@ def time_field(model: Any, source_chainage_m: float, source_depth_m: float,
                          fix="give the grid spacing in metres, for example 250")
     if chainage_range_m is None:
         lo, hi = sec.extent_m()
+        if hi - lo < 1000.0:
+            # a model without lateral nodes says nothing about its extent
+            lo, hi = xs - DEFAULT_HALF_SPAN_M, xs + DEFAULT_HALF_SPAN_M
+            notes.append(f"the model has no extent along the line: the grid spans "
+                         f"{DEFAULT_HALF_SPAN_M / 1e3:.0f} km either side of the source")
         lo, hi = min(lo, xs), max(hi, xs)
         chainage_range_m = (lo - 10 * h, hi + 10 * h)
     x_lo, x_hi = (float(v) for v in chainage_range_m)

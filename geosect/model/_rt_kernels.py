@@ -15,12 +15,16 @@ normal is that of the polyline segment.  Interface 0 is the recording surface.
 ``ifreal[i]`` is 0 for the virtual interfaces of Earth-flattening sub-layers.
 
 Layer ``j`` lies between interfaces ``j`` (top) and ``j + 1`` (bottom; none for
-the last layer).  Its velocity is ``v = a(x) + b(x) z`` with ``a``, ``b``
-piecewise linear in chainage on nodes ``lvx`` (concatenated, offsets ``lvo``),
-constant beyond the end nodes.  ``lkind[j]`` is 0 (constant: straight rays),
-1 (laterally constant linear gradient: circular arcs, exact) or 2 (lateral
-change: fourth-order Runge-Kutta).  ``lgroup[j]`` is the model layer the trace
-layer belongs to (sub-layers of one model layer share a group).
+the last layer).  Its velocity law has nodes ``lvx`` (concatenated, offsets
+``lvo``) with rows ``lvp`` = (v_top, v_bottom, z_top, z_bottom): between nodes
+all four are linear in chainage, and at a chainage the velocity is linear in
+depth through (z_top, v_top) and (z_bottom, v_bottom) -- the law of
+:class:`geosect.model.LayeredModel`, exactly, when the nodes are the union of
+its velocity and interface nodes.  Beyond the end nodes the law is constant
+along chainage.  ``lkind[j]`` is 0 (constant: straight rays), 1 (laterally
+constant linear gradient: circular arcs, exact) or 2 (lateral change:
+fourth-order Runge-Kutta).  ``lgroup[j]`` is the model layer the trace layer
+belongs to (sub-layers of one model layer share a group).
 
 Ray program
 -----------
@@ -57,7 +61,7 @@ _INF = 1.0e300
 _TINY = 1.0e-12
 
 # parameter slots of ``prm``
-P_BOX0, P_BOX1, P_HMAX, P_ALPHA, P_EPS, P_TMAX, P_MAXEV, P_MAXSTEP, P_SMIN = range(9)
+P_BOX0, P_BOX1, P_HMAX, P_ALPHA, P_EPS, P_TMAX, P_MAXEV, P_MAXSTEP, P_SMIN, P_CUT = range(10)
 
 
 # ---------------------------------------------------------------------------
@@ -136,18 +140,31 @@ def interface_depth(ifx, ifz, ifo, i, x):  # pragma: no cover - compiled
     return out
 
 
-@numba.njit(cache=True, error_model="numpy")
-def _cross_line(ifx, ifz, ifo, i, x0, z0, dx, dz, smax, want, smin):  # pragma: no cover
-    """First crossing of the straight ray x0 + s (dx, dz), smin < s < smax, with interface i.
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _quad_roots(a2, a1, a0):  # pragma: no cover - compiled
+    """Real roots of a2 u^2 + a1 u + a0 = 0 (stable form); _INF for a missing root."""
+    r1 = _INF
+    r2 = _INF
+    if a2 == 0.0:
+        if a1 != 0.0:
+            r1 = -a0 / a1
+    else:
+        disc = a1 * a1 - 4.0 * a2 * a0
+        if disc >= 0.0:
+            sq = math.sqrt(disc)
+            qq = -0.5 * (a1 + (sq if a1 >= 0.0 else -sq))
+            if qq != 0.0:
+                r1 = qq / a2
+                r2 = a0 / qq
+    return r1, r2
 
-    ``want`` = -1 accepts only crossings going up through the interface (leaving
-    a layer through its top), +1 only going down (leaving through the bottom).
-    Returns the distance s (``smax`` when none).
-    """
+
+@numba.njit(cache=True, error_model="numpy")
+def _march_line(ifx, ifz, ifo, i, x0, z0, dx, dz, sa, sb, best, want, smin):  # pragma: no cover
+    """Crossings of the straight ray with the segments of interface i over distances [sa, sb]."""
     lo = ifo[i]
     n = ifo[i + 1] - lo
-    k = _locate(ifx, lo, n, x0)
-    best = smax
+    k = _locate(ifx, lo, n, x0 + sa * dx)
     vertical = abs(dx) < _TINY
     step = 1 if dx > 0.0 else -1
     while True:
@@ -175,36 +192,61 @@ def _cross_line(ifx, ifz, ifo, i, x0, z0, dx, dz, smax, want, smin):  # pragma: 
                         best = s
         if vertical:
             break
+        lim = min(sb, best)
         if step > 0:
-            if k >= n - 1:
-                break
-            if ifx[lo + k + 1] > x0 + best * dx:
+            if k >= n - 1 or ifx[lo + k + 1] > x0 + lim * dx:
                 break
             k += 1
         else:
-            if k <= -1:
-                break
-            if ifx[lo + k] < x0 + best * dx:
+            if k <= -1 or ifx[lo + k] < x0 + lim * dx:
                 break
             k -= 1
     return best
 
 
 @numba.njit(cache=True, error_model="numpy")
-def _cross_arc(ifx, ifz, ifo, i, x0, z0, sx, q, v0, b, dz0, pend, want, pmin):  # pragma: no cover
-    """First crossing of a circular ray in v = v0 + b (z - z0) with interface i.
+def _cross_line(ifx, ifz, ifo, ifb, i, x0, z0, dx, dz, smax, want, smin):  # pragma: no cover
+    """First crossing of the straight ray x0 + s (dx, dz), smin < s < smax, with interface i.
 
-    The ray leaves (x0, z0) with horizontal slowness ``q`` (> 0) towards
-    ``sx`` = +-1 and vertical direction cosine ``dz0``.  Positions along it are
-    written x = x0 + u, z = z0 + w; its progress ``sx * u`` grows monotonically.
-    Returns (progress, w) of the first crossing with ``pmin < progress < pend``
-    in the wanted direction, progress = ``pend`` when none.
+    ``want`` = -1 accepts only crossings going up through the interface (leaving
+    a layer through its top), +1 only going down (leaving through the bottom).
+    Only the stretch of the ray within the interface's depth range
+    ``ifb[i]`` is searched.  Returns the distance s (``smax`` when none).
     """
+    zlo = ifb[i, 0] - 1e-7
+    zhi = ifb[i, 1] + 1e-7
+    if abs(dz) < _TINY:
+        if z0 < zlo or z0 > zhi:
+            return smax
+        sa = 0.0
+        sb = smax
+    else:
+        s1 = (zlo - z0) / dz
+        s2 = (zhi - z0) / dz
+        sa = max(min(s1, s2), 0.0)
+        sb = min(max(s1, s2), smax)
+        if sa > sb:
+            return smax
+    return _march_line(ifx, ifz, ifo, i, x0, z0, dx, dz, sa, sb, smax, want, smin)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _arc_w(u, uc, wc):  # pragma: no cover - compiled
+    """Depth offset w of the circular ray at horizontal offset u (cancellation-free)."""
+    dd = wc * wc - u * u + 2.0 * u * uc
+    if dd < 0.0:
+        dd = 0.0
+    sgn = 1.0 if wc >= 0.0 else -1.0
+    return (u * u - 2.0 * u * uc) / (wc + sgn * math.sqrt(dd))
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _march_arc(ifx, ifz, ifo, i, x0, z0, sx, q, v0, b, dz0, pa, pb, best, bestw, want,
+               pmin):  # pragma: no cover - compiled
+    """Crossings of the circular ray with the segments of interface i over progress [pa, pb]."""
     lo = ifo[i]
     n = ifo[i + 1] - lo
-    k = _locate(ifx, lo, n, x0)
-    best = pend
-    bestw = 0.0
+    k = _locate(ifx, lo, n, x0 + sx * pa)
     qb = q * b
     while True:
         xa, za, xb, zb = _segment(ifx, ifz, lo, n, k)
@@ -215,22 +257,8 @@ def _cross_arc(ifx, ifz, ifo, i, x0, z0, sx, q, v0, b, dz0, pend, want, pmin):  
             m = (zb - za) / (xb - xa)
             wk = za + m * (x0 - xa) - z0
         # qb (1 + m^2) u^2 + 2 (m q (b wk + v0) - sx dz0) u + q wk (b wk + 2 v0) = 0
-        a2 = qb * (1.0 + m * m)
-        a1 = 2.0 * (m * q * (b * wk + v0) - sx * dz0)
-        a0 = q * wk * (b * wk + 2.0 * v0)
-        r1 = _INF
-        r2 = _INF
-        if a2 == 0.0:
-            if a1 != 0.0:
-                r1 = -a0 / a1
-        else:
-            disc = a1 * a1 - 4.0 * a2 * a0
-            if disc >= 0.0:
-                sq = math.sqrt(disc)
-                qq = -0.5 * (a1 + (sq if a1 >= 0.0 else -sq))
-                if qq != 0.0:
-                    r1 = qq / a2
-                    r2 = a0 / qq
+        r1, r2 = _quad_roots(qb * (1.0 + m * m), 2.0 * (m * q * (b * wk + v0) - sx * dz0),
+                             q * wk * (b * wk + 2.0 * v0))
         for r in (r1, r2):
             if r == _INF:
                 continue
@@ -250,18 +278,62 @@ def _cross_arc(ifx, ifz, ifo, i, x0, z0, sx, q, v0, b, dz0, pend, want, pmin):  
             if nd * want > 0.0:
                 best = prog
                 bestw = w
+        lim = min(pb, best)
         if sx > 0:
-            if k >= n - 1:
-                break
-            if ifx[lo + k + 1] > x0 + best:
+            if k >= n - 1 or ifx[lo + k + 1] > x0 + lim:
                 break
             k += 1
         else:
-            if k <= -1:
-                break
-            if ifx[lo + k] < x0 - best:
+            if k <= -1 or ifx[lo + k] < x0 - lim:
                 break
             k -= 1
+    return best, bestw
+
+
+@numba.njit(cache=True, error_model="numpy")
+def _cross_arc(ifx, ifz, ifo, ifb, i, x0, z0, sx, q, v0, b, dz0, pend, want, pmin):  # pragma: no cover
+    """First crossing of a circular ray in v = v0 + b (z - z0) with interface i.
+
+    The ray leaves (x0, z0) with horizontal slowness ``q`` (> 0) towards
+    ``sx`` = +-1 and vertical direction cosine ``dz0``.  Positions along it are
+    written x = x0 + u, z = z0 + w; its progress ``sx * u`` grows monotonically.
+    Only the stretches where the ray is within the interface's depth range are
+    searched.  Returns (progress, w) of the first crossing with
+    ``pmin < progress < pend`` in the wanted direction, progress = ``pend``
+    when none.
+    """
+    zlo = ifb[i, 0] - 1e-7
+    zhi = ifb[i, 1] + 1e-7
+    uc = sx * dz0 / (q * b)
+    wc = -v0 / b
+    # break points: where the ray crosses the depths zlo and zhi
+    bp = np.empty(6)
+    nb = 1
+    bp[0] = 0.0
+    for zl in (zlo, zhi):
+        wl = zl - z0
+        r1, r2 = _quad_roots(q * b, -2.0 * sx * dz0, q * wl * (b * wl + 2.0 * v0))
+        for r in (r1, r2):
+            if r != _INF and sx * r > 0.0 and sx * r < pend:
+                bp[nb] = sx * r
+                nb += 1
+    bp[nb] = pend
+    nb += 1
+    bp = np.sort(bp[:nb])
+    best = pend
+    bestw = 0.0
+    for kk in range(nb - 1):
+        pa = bp[kk]
+        pb = bp[kk + 1]
+        if pb <= pa:
+            continue
+        zm = z0 + _arc_w(sx * 0.5 * (pa + pb), uc, wc)
+        if zm < zlo or zm > zhi:
+            continue
+        best, bestw = _march_arc(ifx, ifz, ifo, i, x0, z0, sx, q, v0, b, dz0, pa, pb, best,
+                                 bestw, want, pmin)
+        if best < pb:
+            break
     return best, bestw
 
 
@@ -271,31 +343,78 @@ def _cross_arc(ifx, ifz, ifo, i, x0, z0, sx, q, v0, b, dz0, pend, want, pmin):  
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _vel(lvx, lva, lvb, lvo, j, x, z):  # pragma: no cover - compiled
+def _law(lvx, lvp, lo, k, x, z):  # pragma: no cover - compiled
+    """Velocity law on node segment k (or at node lo + k for k < 0): v, dv/dx, dv/dz.
+
+    Columns of ``lvp``: v_top, v_bottom, z_top, z_bottom.  Between nodes all
+    four are linear in x; v is linear in z between (z_top, v_top) and
+    (z_bottom, v_bottom), with no gradient where z_bottom <= z_top.
+    """
+    if k < 0:
+        i = lo - k - 1
+        vt = lvp[i, 0]
+        h = lvp[i, 3] - lvp[i, 2]
+        b = (lvp[i, 1] - vt) / h if h > 1e-9 else 0.0
+        return vt + b * (z - lvp[i, 2]), 0.0, b
+    i = lo + k
+    dxn = lvx[i + 1] - lvx[i]
+    t = (x - lvx[i]) / dxn
+    vt = lvp[i, 0] + t * (lvp[i + 1, 0] - lvp[i, 0])
+    vb = lvp[i, 1] + t * (lvp[i + 1, 1] - lvp[i, 1])
+    zt = lvp[i, 2] + t * (lvp[i + 1, 2] - lvp[i, 2])
+    zb = lvp[i, 3] + t * (lvp[i + 1, 3] - lvp[i, 3])
+    h = zb - zt
+    if h <= 1e-9:
+        return vt, (lvp[i + 1, 0] - lvp[i, 0]) / dxn, 0.0
+    dvt = (lvp[i + 1, 0] - lvp[i, 0]) / dxn
+    ddv = (lvp[i + 1, 1] - lvp[i, 1]) / dxn - dvt
+    dzt = (lvp[i + 1, 2] - lvp[i, 2]) / dxn
+    dh = (lvp[i + 1, 3] - lvp[i, 3]) / dxn - dzt
+    b = (vb - vt) / h
+    db = (ddv - b * dh) / h
+    return vt + b * (z - zt), dvt + db * (z - zt) - b * dzt, b
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _vel(lvx, lvp, lvo, j, x, z):  # pragma: no cover - compiled
     """Velocity of layer j at (x, z) and its gradient (v, dv/dx, dv/dz)."""
     lo = lvo[j]
     n = lvo[j + 1] - lo
     if n == 1:
-        return lva[lo] + lvb[lo] * z, 0.0, lvb[lo]
+        return _law(lvx, lvp, lo, -1, x, z)
     k = _locate(lvx, lo, n, x)
     if k < 0:
-        return lva[lo] + lvb[lo] * z, 0.0, lvb[lo]
+        return _law(lvx, lvp, lo, -1, x, z)
     if k >= n - 1:
-        return lva[lo + n - 1] + lvb[lo + n - 1] * z, 0.0, lvb[lo + n - 1]
-    h = lvx[lo + k + 1] - lvx[lo + k]
-    t = (x - lvx[lo + k]) / h
-    da = lva[lo + k + 1] - lva[lo + k]
-    db = lvb[lo + k + 1] - lvb[lo + k]
-    bb = lvb[lo + k] + t * db
-    return lva[lo + k] + t * da + bb * z, (da + db * z) / h, bb
+        return _law(lvx, lvp, lo, -n, x, z)
+    return _law(lvx, lvp, lo, k, x, z)
+
+
+@numba.njit(cache=True, inline="always", error_model="numpy")
+def _vel_k(lvx, lvp, lvo, j, x, z, k):  # pragma: no cover - compiled
+    """As :func:`_vel`, starting the node search at segment k; returns the segment too."""
+    lo = lvo[j]
+    n = lvo[j + 1] - lo
+    if n == 1:
+        v, vx, vz = _law(lvx, lvp, lo, -1, x, z)
+        return v, vx, vz, 0
+    if not (k >= 0 and k < n - 1 and lvx[lo + k] <= x < lvx[lo + k + 1]):
+        k = _locate(lvx, lo, n, x)
+    if k < 0:
+        v, vx, vz = _law(lvx, lvp, lo, -1, x, z)
+    elif k >= n - 1:
+        v, vx, vz = _law(lvx, lvp, lo, -n, x, z)
+    else:
+        v, vx, vz = _law(lvx, lvp, lo, k, x, z)
+    return v, vx, vz, k
 
 
 @numba.njit(cache=True, error_model="numpy")
-def layer_velocity(lvx, lva, lvb, lvo, j, x, z):  # pragma: no cover - compiled
+def layer_velocity(lvx, lvp, lvo, j, x, z):  # pragma: no cover - compiled
     """Velocities of layer j at points (x, z) (arrays), in m/s."""
     out = np.empty(x.size)
     for q in range(x.size):
-        v, _, _ = _vel(lvx, lva, lvb, lvo, j, x[q], z[q])
+        v, _, _ = _vel(lvx, lvp, lvo, j, x[q], z[q])
         out[q] = v
     return out
 
@@ -358,7 +477,7 @@ def _push(px, pz, pn, r, x, z):  # pragma: no cover - compiled
 
 
 @numba.njit(cache=True, error_model="numpy")
-def _prop_analytic(ifx, ifz, ifo, j, n_if, kind, a, b, x0, z0, dx, dz, prm,
+def _prop_analytic(ifx, ifz, ifo, ifb, j, n_if, kind, a, b, x0, z0, dx, dz, prm,
                    track, px, pz, pn, r, rec):  # pragma: no cover - compiled
     """Propagate in a laterally constant layer to its first exit.
 
@@ -379,10 +498,10 @@ def _prop_analytic(ifx, ifz, ifo, j, n_if, kind, a, b, x0, z0, dx, dz, prm,
             smax = ((box1 if dx > 0 else box0) - x0) / dx
         else:
             smax = _INF
-        st = _cross_line(ifx, ifz, ifo, j, x0, z0, dx, dz, smax, -1, smin)
+        st = _cross_line(ifx, ifz, ifo, ifb, j, x0, z0, dx, dz, smax, -1, smin)
         sb = smax
         if has_bot:
-            sb = _cross_line(ifx, ifz, ifo, j + 1, x0, z0, dx, dz, st, 1, smin)
+            sb = _cross_line(ifx, ifz, ifo, ifb, j + 1, x0, z0, dx, dz, st, 1, smin)
         if sb < st:
             hit = 2
             s = sb
@@ -419,11 +538,11 @@ def _prop_analytic(ifx, ifz, ifo, j, n_if, kind, a, b, x0, z0, dx, dz, prm,
     if lim < pend:
         pend = lim
     pmin = smin * q * v0
-    pt, wt = _cross_arc(ifx, ifz, ifo, j, x0, z0, sx, q, v0, b, dz, pend, -1, pmin)
+    pt, wt = _cross_arc(ifx, ifz, ifo, ifb, j, x0, z0, sx, q, v0, b, dz, pend, -1, pmin)
     pb = pend
     wb = 0.0
     if has_bot:
-        pb, wb = _cross_arc(ifx, ifz, ifo, j + 1, x0, z0, sx, q, v0, b, dz, pt, 1, pmin)
+        pb, wb = _cross_arc(ifx, ifz, ifo, ifb, j + 1, x0, z0, sx, q, v0, b, dz, pt, 1, pmin)
     if pb < pt:
         hit = 2
         prog = pb
@@ -482,31 +601,37 @@ def _prop_analytic(ifx, ifz, ifo, j, n_if, kind, a, b, x0, z0, dx, dz, prm,
 
 
 @numba.njit(cache=True, inline="always", error_model="numpy")
-def _rhs(lvx, lva, lvb, lvo, j, x, z, th):  # pragma: no cover - compiled
-    v, vx, vz = _vel(lvx, lva, lvb, lvo, j, x, z)
+def _rhs(lvx, lvp, lvo, j, x, z, th, k):  # pragma: no cover - compiled
+    v, vx, vz, k = _vel_k(lvx, lvp, lvo, j, x, z, k)
     s = math.sin(th)
     c = math.cos(th)
-    return s, c, (vz * s - vx * c) / v, 1.0 / v, v
+    return s, c, (vz * s - vx * c) / v, 1.0 / v, v, k
 
 
 @numba.njit(cache=True, error_model="numpy")
-def _rk4(lvx, lva, lvb, lvo, j, x, z, th, h):  # pragma: no cover - compiled
-    """One classical fourth-order Runge-Kutta step of length h (arc length)."""
-    k1x, k1z, k1t, k1T, v1 = _rhs(lvx, lva, lvb, lvo, j, x, z, th)
+def _rk4(lvx, lvp, lvo, j, x, z, th, h, k):  # pragma: no cover - compiled
+    """One classical fourth-order Runge-Kutta step of length h (arc length).
+
+    ``k`` is a guess of the velocity node segment (returned updated).
+    """
+    k1x, k1z, k1t, k1T, v1, k = _rhs(lvx, lvp, lvo, j, x, z, th, k)
     hh = 0.5 * h
-    k2x, k2z, k2t, k2T, v2 = _rhs(lvx, lva, lvb, lvo, j, x + hh * k1x, z + hh * k1z, th + hh * k1t)
-    k3x, k3z, k3t, k3T, v3 = _rhs(lvx, lva, lvb, lvo, j, x + hh * k2x, z + hh * k2z, th + hh * k2t)
-    k4x, k4z, k4t, k4T, v4 = _rhs(lvx, lva, lvb, lvo, j, x + h * k3x, z + h * k3z, th + h * k3t)
+    k2x, k2z, k2t, k2T, v2, k = _rhs(lvx, lvp, lvo, j, x + hh * k1x, z + hh * k1z,
+                                     th + hh * k1t, k)
+    k3x, k3z, k3t, k3T, v3, k = _rhs(lvx, lvp, lvo, j, x + hh * k2x, z + hh * k2z,
+                                     th + hh * k2t, k)
+    k4x, k4z, k4t, k4T, v4, k = _rhs(lvx, lvp, lvo, j, x + h * k3x, z + h * k3z,
+                                     th + h * k3t, k)
     h6 = h / 6.0
     vmin = min(min(v1, v2), min(v3, v4))
     return (x + h6 * (k1x + 2.0 * (k2x + k3x) + k4x),
             z + h6 * (k1z + 2.0 * (k2z + k3z) + k4z),
             th + h6 * (k1t + 2.0 * (k2t + k3t) + k4t),
-            h6 * (k1T + 2.0 * (k2T + k3T) + k4T), vmin)
+            h6 * (k1T + 2.0 * (k2T + k3T) + k4T), vmin, k)
 
 
 @numba.njit(cache=True, error_model="numpy")
-def _prop_rk(ifx, ifz, ifd, ifo, ifsm, lvx, lva, lvb, lvo, j, n_if, x0, z0, dx, dz, prm,
+def _prop_rk(ifx, ifz, ifd, ifo, ifsm, ifb, lvx, lvp, lvo, lnx, lpv, j, n_if, x0, z0, dx, dz, prm,
              track, px, pz, pn, r, rec):  # pragma: no cover - compiled
     """Propagate in a layer with lateral velocity change (RK4, curvature-limited steps).
 
@@ -527,18 +652,39 @@ def _prop_rk(ifx, ifz, ifd, ifo, ifsm, lvx, lva, lvb, lvo, j, n_if, x0, z0, dx, 
     t = 0.0
     dpx = x0
     dpz = z0
+    kv = -2
+    lvlo = lvo[j]
+    nvel = lvo[j + 1] - lvlo
+    cut = prm[P_CUT] != 0.0
+    top_max = ifb[j, 1] + 1e-6
+    bot_min = ifb[j + 1, 0] - 1e-6 if has_bot else _INF
     for _ in range(maxstep):
-        v, vx, vz = _vel(lvx, lva, lvb, lvo, j, x, z)
+        v, vx, vz, kv = _vel_k(lvx, lvp, lvo, j, x, z, kv)
         if v <= 0.0:
             return 0, x, z, math.sin(th), math.cos(th), t, dpx, dpz, 6
         g = math.sqrt(vx * vx + vz * vz)
         h = hmax
         if g > 0.0 and alpha * v / g < h:
             h = alpha * v / g
+        # end the step just past the next kink of the law (a node where its
+        # lateral derivative jumps): RK4 keeps its order only where v is smooth
+        if cut and nvel > 1:
+            sn = math.sin(th)
+            tgt = -1
+            if sn > 0.0:
+                tgt = lnx[lvlo] if kv < 0 else (lnx[lvlo + kv + 1] if kv < nvel - 1 else -1)
+            elif sn < 0.0:
+                tgt = lpv[lvlo + nvel - 1] if kv >= nvel - 1 else (lpv[lvlo + kv] if kv >= 0 else -1)
+            if tgt >= 0:
+                # (a kink within the first hundredth of the step is left alone: the
+                # path curves, so aiming at it exactly could shrink the steps forever)
+                dist = (lvx[tgt] - x) / sn
+                if dist > 0.01 * h and dist < h:
+                    h = dist * (1.0 + 1e-6) + 1e-4
         # a step whose end left the layer although its chord crossed no
         # interface (the ray dipped out and back near the start) is halved
         for _try in range(40):
-            x1, z1, th1, dt, vmin = _rk4(lvx, lva, lvb, lvo, j, x, z, th, h)
+            x1, z1, th1, dt, vmin, kv = _rk4(lvx, lvp, lvo, j, x, z, th, h, kv)
             if not vmin > 0.0:
                 return 0, x, z, math.sin(th), math.cos(th), t, dpx, dpz, 6
             cx = x1 - x
@@ -546,20 +692,30 @@ def _prop_rk(ifx, ifz, ifd, ifo, ifsm, lvx, lva, lvb, lvo, j, n_if, x0, z0, dx, 
             cl = math.sqrt(cx * cx + cz * cz)
             ux = cx / cl
             uz = cz / cl
-            st = _cross_line(ifx, ifz, ifo, j, x, z, ux, uz, cl, -1, smin)
+            # interfaces are looked at only when the chord reaches their depth range
+            near_top = min(z, z1) <= top_max
+            near_bot = max(z, z1) >= bot_min
+            st = cl
+            if near_top:
+                st = _cross_line(ifx, ifz, ifo, ifb, j, x, z, ux, uz, cl, -1, smin)
             sb = cl
-            if has_bot:
-                sb = _cross_line(ifx, ifz, ifo, j + 1, x, z, ux, uz, st, 1, smin)
+            if near_bot:
+                sb = _cross_line(ifx, ifz, ifo, ifb, j + 1, x, z, ux, uz, st, 1, smin)
             if st < cl or sb < cl:
                 break
-            zt, _m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, j, x1)
-            outside = z1 < zt - 1e-9
-            if has_bot and not outside:
+            outside = False
+            if near_top:
+                zt, _m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, j, x1)
+                outside = z1 < zt - 1e-9
+            if near_bot and not outside:
                 zb, _m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, j + 1, x1)
                 outside = z1 > zb + 1e-9
             if not outside:
                 break
             h *= 0.5
+        else:
+            # grazing along the interface: give the ray up
+            return 0, x, z, math.sin(th), math.cos(th), t, dpx, dpz, 4
         if st < cl or sb < cl:
             if sb < st:
                 hit = 2
@@ -572,7 +728,7 @@ def _prop_rk(ifx, ifz, ifd, ifo, ifsm, lvx, lva, lvb, lvo, j, n_if, x0, z0, dx, 
             # Newton on the step length so that the RK4 end point lies on the interface
             hs = s * h / cl
             for _it in range(12):
-                xa, za, tha, dta, _vm = _rk4(lvx, lva, lvb, lvo, j, x, z, th, hs)
+                xa, za, tha, dta, _vm, kv = _rk4(lvx, lvp, lvo, j, x, z, th, hs, kv)
                 zi, mi = _depth_slope(ifx, ifz, ifd, ifo, ifsm, iface, xa)
                 lo = ifo[iface]
                 nn = ifo[iface + 1] - lo
@@ -630,7 +786,7 @@ def _prop_rk(ifx, ifz, ifd, ifo, ifsm, lvx, lva, lvb, lvo, j, n_if, x0, z0, dx, 
 
 
 @numba.njit(cache=True, error_model="numpy")
-def _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo, lkind, lgroup,
+def _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, ifb, lvx, lvp, lvo, lnx, lpv, lkind, lgroup,
                ptype, ptarget, src_layer, xs, zs, th0, prm, out, px, pz, pn, rec):  # pragma: no cover
     n_if = ifo.size - 1
     eps = prm[P_EPS]
@@ -656,15 +812,15 @@ def _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo, lkind, l
         track = ptype == 1 and lgroup[j] == ptarget
         if kind == 2:
             hit, x1, z1, dx1, dz1, dt, qx, qz, st = _prop_rk(
-                ifx, ifz, ifd, ifo, ifsm, lvx, lva, lvb, lvo, j, n_if, x, z, dx, dz, prm,
+                ifx, ifz, ifd, ifo, ifsm, ifb, lvx, lvp, lvo, lnx, lpv, j, n_if, x, z, dx, dz, prm,
                 track, px, pz, pn, r, rec)
             if hit == 0:
                 status = st if st != 0 else 3
                 break
         else:
-            lo = lvo[j]
+            v00, _vx, bgrad = _vel(lvx, lvp, lvo, j, x, 0.0)
             hit, x1, z1, dx1, dz1, dt, qx, qz = _prop_analytic(
-                ifx, ifz, ifo, j, n_if, kind, lva[lo], lvb[lo], x, z, dx, dz, prm,
+                ifx, ifz, ifo, ifb, j, n_if, kind, v00, bgrad, x, z, dx, dz, prm,
                 track, px, pz, pn, r, rec)
             if hit == 0:
                 status = 3
@@ -702,8 +858,8 @@ def _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo, lkind, l
                 break
             jn = mtop - 1
             _zz, m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, j, x)
-            v1, _a, _b = _vel(lvx, lva, lvb, lvo, j, x, z)
-            v2, _a, _b = _vel(lvx, lva, lvb, lvo, jn, x, z)
+            v1, _a, _b = _vel(lvx, lvp, lvo, j, x, z)
+            v2, _a, _b = _vel(lvx, lvp, lvo, jn, x, z)
             if v2 <= 0.0:
                 status = 6
                 break
@@ -743,8 +899,8 @@ def _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo, lkind, l
                 status = 5
                 break
             _zz, m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, b, x)
-            v1, _a, _b = _vel(lvx, lva, lvb, lvo, j, x, z)
-            v2, _a, _b = _vel(lvx, lva, lvb, lvo, mbot, x, z)
+            v1, _a, _b = _vel(lvx, lvp, lvo, j, x, z)
+            v2, _a, _b = _vel(lvx, lvp, lvo, mbot, x, z)
             if v2 <= 0.0:
                 status = 6
                 break
@@ -762,7 +918,7 @@ def _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo, lkind, l
     out[r, 3] = t
     out[r, 4] = dx
     out[r, 5] = dz
-    v, _a, _b = _vel(lvx, lva, lvb, lvo, j, x, z)
+    v, _a, _b = _vel(lvx, lvp, lvo, j, x, z)
     out[r, 6] = v
     out[r, 7] = ptx
     out[r, 8] = ptz
@@ -770,18 +926,18 @@ def _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo, lkind, l
 
 
 @numba.njit(cache=True, parallel=True, error_model="numpy")
-def _trace_par(ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo, lkind, lgroup,
+def _trace_par(ifx, ifz, ifd, ifo, ifsm, ifreal, ifb, lvx, lvp, lvo, lnx, lpv, lkind, lgroup,
                ptype, ptarget, src_layer, xs, zs, th, prm, out, px, pz, pn, rec):  # pragma: no cover
     for r in numba.prange(th.size):
-        _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo, lkind, lgroup,
+        _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, ifb, lvx, lvp, lvo, lnx, lpv, lkind, lgroup,
                    ptype, ptarget, src_layer, xs, zs, th[r], prm, out, px, pz, pn, rec)
 
 
 @numba.njit(cache=True, error_model="numpy")
-def _trace_ser(ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo, lkind, lgroup,
+def _trace_ser(ifx, ifz, ifd, ifo, ifsm, ifreal, ifb, lvx, lvp, lvo, lnx, lpv, lkind, lgroup,
                ptype, ptarget, src_layer, xs, zs, th, prm, out, px, pz, pn, rec):  # pragma: no cover
     for r in range(th.size):
-        _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo, lkind, lgroup,
+        _trace_one(r, ifx, ifz, ifd, ifo, ifsm, ifreal, ifb, lvx, lvp, lvo, lnx, lpv, lkind, lgroup,
                    ptype, ptarget, src_layer, xs, zs, th[r], prm, out, px, pz, pn, rec)
 
 

@@ -64,6 +64,7 @@ RESULT_COLUMNS: tuple[str, ...] = (
 )
 
 _EPS_COINCIDE = 0.01  # m: interfaces closer than this at a crossing count as one (pinch-out)
+_DTH_MIN = 1e-7  # rad: finest spacing of take-off angles in the fan
 
 
 # ---------------------------------------------------------------------------
@@ -73,32 +74,38 @@ _EPS_COINCIDE = 0.01  # m: interfaces closer than this at a crossing count as on
 
 @dataclass(frozen=True)
 class LayerLaw:
-    """Velocity law of one layer: :math:`v(x, z) = a(x) + b(x)\\,z`.
+    """Velocity law of one layer, linear in depth at every chainage.
 
-    ``a`` (m/s, the law extrapolated to depth 0) and ``b`` (dv/dz, 1/s) are
+    At chainage ``x`` the velocity is linear in depth through
+    ``(z_top(x), v_top(x))`` and ``(z_bottom(x), v_bottom(x))``; the four are
     linear in chainage between the nodes and constant beyond the end nodes.
+    Where ``z_bottom <= z_top`` (a pinched-out layer) there is no gradient.
+    This is the law of :class:`geosect.model.LayeredModel` when the nodes are
+    the union of its velocity and interface nodes, and it continues above the
+    top and below the bottom unchanged.
 
     Parameters
     ----------
     chainage_m : array_like
         Node chainages, metres, increasing (one node: laterally constant).
-    a_ms : array_like
-        Velocity extrapolated to the datum (depth 0) at each node, m/s.
-    b_per_s : array_like
-        Vertical gradient at each node, 1/s.
+    v_top_ms, v_bottom_ms : array_like
+        Velocities at the two reference depths, m/s.
+    z_top_m, z_bottom_m : array_like
+        The two reference depths, metres.
     """
 
     chainage_m: np.ndarray
-    a_ms: np.ndarray
-    b_per_s: np.ndarray
+    v_top_ms: np.ndarray
+    v_bottom_ms: np.ndarray
+    z_top_m: np.ndarray
+    z_bottom_m: np.ndarray
 
     def __post_init__(self) -> None:
         c = np.atleast_1d(np.asarray(self.chainage_m, float))
-        a = np.broadcast_to(np.asarray(self.a_ms, float), c.shape).copy()
-        b = np.broadcast_to(np.asarray(self.b_per_s, float), c.shape).copy()
         object.__setattr__(self, "chainage_m", c)
-        object.__setattr__(self, "a_ms", a)
-        object.__setattr__(self, "b_per_s", b)
+        for name in ("v_top_ms", "v_bottom_ms", "z_top_m", "z_bottom_m"):
+            a = np.broadcast_to(np.asarray(getattr(self, name), float), c.shape).copy()
+            object.__setattr__(self, name, a)
 
     @classmethod
     def linear(cls, v_ms, gradient_per_s=0.0, reference_depth_m=0.0, chainage_m=None) -> "LayerLaw":
@@ -106,18 +113,40 @@ class LayerLaw:
         c = np.zeros(1) if chainage_m is None else chainage_m
         v = np.asarray(v_ms, float)
         g = np.asarray(gradient_per_s, float)
-        return cls(c, v - g * np.asarray(reference_depth_m, float), g)
+        z0 = np.asarray(reference_depth_m, float)
+        return cls(c, v, v + 1000.0 * g, z0, z0 + 1000.0)
+
+    def ab(self, chainage_m) -> tuple[np.ndarray, np.ndarray]:
+        """``(a, b)`` with ``v = a + b z`` at the chainages (m/s, 1/s), vectorised."""
+        x = np.asarray(chainage_m, float)
+        c = self.chainage_m
+        vt, vb, zt, zb = (np.interp(x, c, getattr(self, k))
+                          for k in ("v_top_ms", "v_bottom_ms", "z_top_m", "z_bottom_m"))
+        h = zb - zt
+        with np.errstate(invalid="ignore", divide="ignore"):
+            b = np.where(h > 1e-9, (vb - vt) / np.where(h > 1e-9, h, 1.0), 0.0)
+        return vt - b * zt, b
 
     def velocity(self, chainage_m, depth_m) -> np.ndarray:
         """Velocity (m/s) at chainages and depths (m), vectorised."""
-        x = np.asarray(chainage_m, float)
-        return (np.interp(x, self.chainage_m, self.a_ms)
-                + np.interp(x, self.chainage_m, self.b_per_s) * np.asarray(depth_m, float))
+        a, b = self.ab(chainage_m)
+        return a + b * np.asarray(depth_m, float)
 
     @property
     def is_lateral(self) -> bool:
-        """True when a or b changes along chainage."""
-        return bool(np.ptp(self.a_ms) > 0 or np.ptp(self.b_per_s) > 0)
+        """True when the law changes along chainage."""
+        c = self.chainage_m
+        if c.size == 1:
+            return False
+        x = np.concatenate([c, 0.5 * (c[1:] + c[:-1])])
+        a, b = self.ab(x)
+        return bool(np.ptp(a) > 1e-9 * np.abs(a).max() or np.ptp(b) > 1e-12)
+
+    def node(self, k: int = 0) -> "LayerLaw":
+        """The one-node law of node k (for laterally constant laws)."""
+        return LayerLaw(self.chainage_m[k:k + 1], self.v_top_ms[k:k + 1],
+                        self.v_bottom_ms[k:k + 1], self.z_top_m[k:k + 1],
+                        self.z_bottom_m[k:k + 1])
 
 
 @dataclass
@@ -180,16 +209,15 @@ class TraceModel:
         return cls(names, lnames, [(np.zeros(1), np.array([t])) for t in tops], laws, laws_s)
 
     @classmethod
-    def from_model(cls, model: Any, *, spacing_m: float = 250.0) -> "TraceModel":
+    def from_model(cls, model: Any) -> "TraceModel":
         """Adapter from :class:`geosect.model.LayeredModel`.
 
         The model's law in layer ``i`` is :math:`v = v_{top}(x) + g(x)(z - z_{top}(x))`
         with :math:`g = (v_{bottom} - v_{top}) / (z_{bottom} - z_{top})` (the
-        half-space has its own gradient); velocities above the model top follow
-        the top layer's law.  Where the law varies along chainage it is sampled
-        at the velocity and interface nodes and at most ``spacing_m`` apart, and
-        written as :math:`a(x) + b(x) z` linear between the samples; laterally
-        constant layers are kept exact.
+        half-space has its own gradient), velocities above the model top
+        following the top layer's law.  It is kept exactly: the
+        :class:`LayerLaw` of each layer has the union of the layer's velocity
+        nodes and its interfaces' nodes.
         """
         itfs = [(np.asarray(i.chainage_m, float), np.asarray(i.depth_m, float))
                 for i in model.interfaces]
@@ -201,23 +229,14 @@ class TraceModel:
             if not last:
                 nodes.append(itfs[i + 1][0])
             x = np.unique(np.concatenate(nodes))
-            if x.size > 1:
-                steps = np.maximum(np.ceil(np.diff(x) / spacing_m).astype(int), 1)
-                x = np.unique(np.concatenate([np.linspace(x[k], x[k + 1], steps[k] + 1)
-                                              for k in range(x.size - 1)]))
             zt = np.interp(x, *itfs[i])
-            zb = None if last else np.interp(x, *itfs[i + 1])
+            zb = zt + 1000.0 if last else np.interp(x, *itfs[i + 1])
             for wave, out in (("P", vp), ("S", vs)):
                 vt, vb, g = _layer_values(lay, x, wave, last)
-                if not last:
-                    h = zb - zt
-                    with np.errstate(invalid="ignore", divide="ignore"):
-                        g = np.where(h > 0, (vb - vt) / np.where(h > 0, h, 1.0), 0.0)
-                a = vt - g * zt
-                if np.ptp(a) <= 1e-9 * np.abs(a).max() and np.ptp(g) <= 1e-15:
-                    out.append(LayerLaw(np.zeros(1), a[:1], g[:1]))
-                else:
-                    out.append(LayerLaw(x, a, g))
+                if last:
+                    vb = vt + 1000.0 * g
+                law = LayerLaw(x, vt, vb, zt, zb)
+                out.append(law if law.is_lateral else law.node(0))
         return cls(list(model.interface_names), list(model.layer_names), itfs, vp, vs)
 
     def velocity(self, chainage_m, depth_m, wave: str = "P") -> np.ndarray:
@@ -355,14 +374,15 @@ class _Packed:
         return j
 
     def velocity(self, j: int, x, z) -> np.ndarray:
-        lvx, lva, lvb, lvo = self.arrays[6:10]
+        lvx, lvp, lvo = self.arrays[7:10]
         x = np.atleast_1d(np.asarray(x, float))
         z = np.broadcast_to(np.asarray(z, float), x.shape).copy()
-        return K.layer_velocity(lvx, lva, lvb, lvo, j, x, z)
+        return K.layer_velocity(lvx, lvp, lvo, j, x, z)
 
 
 def _pack(tm: TraceModel, wave: str, surface: tuple[np.ndarray, np.ndarray], *, smooth: bool,
-          smooth_tol_m: float, flatten: bool, radius_m: float, flatten_bottom_m: float) -> _Packed:
+          smooth_tol_m: float, flatten: bool, radius_m: float, flatten_bottom_m: float,
+          kink_tol: float = 2e-8) -> _Packed:
     laws = tm._laws(wave)
     sx, sz = surface
     n = len(laws)
@@ -391,7 +411,7 @@ def _pack(tm: TraceModel, wave: str, surface: tuple[np.ndarray, np.ndarray], *, 
     for law in layer_laws:
         if law.is_lateral:
             kinds.append(2)
-        elif law.b_per_s[0] == 0.0:
+        elif law.ab(law.chainage_m[:1])[1][0] == 0.0:
             kinds.append(0)
         else:
             kinds.append(1)
@@ -401,20 +421,64 @@ def _pack(tm: TraceModel, wave: str, surface: tuple[np.ndarray, np.ndarray], *, 
     ifd = np.concatenate([p[2] for p in polys]).astype(float)
     ifsm = np.array([1 if p[3] else 0 for p in polys], np.int8)
     ifreal = np.array([1 if r else 0 for r in real], np.int8)
-    single = [law if law.is_lateral else LayerLaw(np.zeros(1), law.a_ms[:1], law.b_per_s[:1])
-              for law in layer_laws]
+    single = [law if law.is_lateral else law.node(0) for law in layer_laws]
     lvo = np.cumsum([0] + [law.chainage_m.size for law in single]).astype(np.int64)
     lvx = np.concatenate([law.chainage_m for law in single])
-    lva = np.concatenate([law.a_ms for law in single])
-    lvb = np.concatenate([law.b_per_s for law in single])
-    arrays = (ifx, ifz, ifd, ifo, ifsm, ifreal, lvx, lva, lvb, lvo,
-              np.array(kinds, np.int8), np.array(group, np.int64))
-    # slowest velocity anywhere near the section, for the time budget
-    vmin = min(float(np.min(law.a_ms + law.b_per_s * np.interp(law.chainage_m, *polys[0][:2])))
-               for law in single)
+    lvp = np.concatenate([np.column_stack([law.v_top_ms, law.v_bottom_ms, law.z_top_m,
+                                           law.z_bottom_m]) for law in single])
+    ifb = np.array([[p[1].min(), p[1].max()] for p in polys], float)
+    lnx, lpv = _kink_links([_kinks(law, kink_tol) for law in single], lvo)
+    arrays = (ifx, ifz, ifd, ifo, ifsm, ifreal, ifb, lvx, np.ascontiguousarray(lvp), lvo,
+              lnx, lpv, np.array(kinds, np.int8), np.array(group, np.int64))
+    # slowest velocity at the surface, for the time budget
+    sx_, sz_ = polys[0][0], polys[0][1]
+    vmin = min(float(np.min(law.velocity(sx_, sz_))) for law in single)
     s_polys = polys[0]
     return _Packed(arrays, np.array(group), np.array(iface), np.array(real),
                    (s_polys[0], s_polys[1]), flatten, radius_m, max(vmin, 1.0))
+
+
+def _kinks(law: LayerLaw, tol: float) -> np.ndarray:
+    """Nodes of a law where dv/dx jumps by more than ``tol * v`` (1/m) at its reference depths."""
+    c = law.chainage_m
+    if c.size == 1:
+        return np.zeros(1, bool)
+    span = np.diff(c)
+    eps_l = np.r_[1.0, 1e-6 * span]
+    eps_r = np.r_[1e-6 * span, 1.0]
+
+    def slope(xa, xb):
+        a0, b0 = law.ab(xa)
+        a1, b1 = law.ab(xb)
+        return (a1 - a0) / (xb - xa), (b1 - b0) / (xb - xa)
+
+    al, bl = slope(c - eps_l, c - 0.5 * eps_l)
+    ar, br = slope(c + 0.5 * eps_r, c + eps_r)
+    a, b = law.ab(c)
+    jump = np.zeros(c.size)
+    for z in (law.z_top_m, law.z_bottom_m):
+        v = np.maximum(np.abs(a + b * z), 1.0)
+        jump = np.maximum(jump, np.abs((ar - al) + (br - bl) * z) / v)
+    return jump > tol
+
+
+def _kink_links(flags: list, lvo: np.ndarray):
+    """For every law node: global index of the next kink at or after it, and of the last at or before it."""
+    nxt = np.full(int(lvo[-1]), -1, np.int64)
+    prv = np.full(int(lvo[-1]), -1, np.int64)
+    for j, f in enumerate(flags):
+        lo = int(lvo[j])
+        idx = np.flatnonzero(f)
+        if idx.size == 0:
+            continue
+        k = np.arange(f.size)
+        pos = np.searchsorted(idx, k, "left")
+        ok = pos < idx.size
+        nxt[lo + k[ok]] = lo + idx[pos[ok]]
+        pos2 = np.searchsorted(idx, k, "right") - 1
+        ok2 = pos2 >= 0
+        prv[lo + k[ok2]] = lo + idx[pos2[ok2]]
+    return nxt, prv
 
 
 def _flatten(polys, laws, radius_m: float, bottom_m: float):
@@ -437,8 +501,7 @@ def _flatten(polys, laws, radius_m: float, bottom_m: float):
         zb = np.interp(x, bx, bz)
         ft = flatten_depth(zt, R)
         fb = flatten_depth(zb, R)
-        a = np.interp(x, law.chainage_m, law.a_ms)
-        b = np.interp(x, law.chainage_m, law.b_per_s)
+        a, b = law.ab(x)
         vft = flatten_velocity(a + b * zt, zt, R)
         vfb = flatten_velocity(a + b * zb, zb, R)
         nsub = n_sublayers(float(np.max(fb - ft)), float(min(vft.min(), vfb.min())),
@@ -457,14 +520,8 @@ def _flatten(polys, laws, radius_m: float, bottom_m: float):
             z1 = unflatten_depth(f1, R)
             v0 = flatten_velocity(a + b * z0, z0, R)
             v1 = flatten_velocity(a + b * z1, z1, R)
-            h = f1 - f0
-            with np.errstate(invalid="ignore", divide="ignore"):
-                bf = np.where(h > 0, (v1 - v0) / np.where(h > 0, h, 1.0), 0.0)
-            af = v0 - bf * f0
-            if x.size == 1 or (np.ptp(af) <= 1e-9 * np.abs(af).max() and np.ptp(bf) <= 1e-15):
-                out_laws.append(LayerLaw(np.zeros(1), af[:1], bf[:1]))
-            else:
-                out_laws.append(LayerLaw(x, af, bf))
+            sub = LayerLaw(x, v0, v1, f0, f1)
+            out_laws.append(sub if sub.is_lateral else sub.node(0))
             group.append(j)
             if k > 0:
                 out_polys.append((x, f0, np.gradient(f0, x) if x.size > 1 else np.zeros(1), False))
@@ -600,7 +657,8 @@ class RayTracer2D:
     def __init__(self, model: Any, *, surface_chainage_m=None, surface_depth_m=None,
                  smooth: bool = False, smooth_tol_m: float = 0.05, flatten: bool = False,
                  radius_m: float = EARTH_RADIUS_M, flatten_bottom_m: float = 200e3,
-                 step_m: float = 500.0, max_turn: float = 0.02, parallel: bool = True):
+                 step_m: float = 2000.0, max_turn: float = 0.02, node_steps: bool = True,
+                 parallel: bool = True):
         self.model = as_trace_model(model)
         self.smooth = bool(smooth)
         self.smooth_tol_m = float(smooth_tol_m)
@@ -609,6 +667,7 @@ class RayTracer2D:
         self.flatten_bottom_m = float(flatten_bottom_m)
         self.step_m = float(step_m)
         self.max_turn = float(max_turn)
+        self.node_steps = bool(node_steps)
         self.parallel = bool(parallel)
         self._fixed = None
         if surface_chainage_m is not None:
@@ -744,20 +803,22 @@ class RayTracer2D:
         n_if = pk.arrays[3].size - 1
         tmax = 20.0 * (span_hi - span_lo + 2 * pad + 2 * float(np.max(np.abs(pk.arrays[1])))) / pk.vmin
         prm = np.array([span_lo - pad, span_hi + pad, self.step_m, self.max_turn, _EPS_COINCIDE,
-                        tmax, 8 * n_if + 16, 200000, 1e-6])
+                        tmax, 8 * n_if + 16, 200000, 1e-6, 1.0 if self.node_steps else 0.0])
         rs = np.sort(gx)
         if max_gap_m is None:
             sp = np.diff(np.unique(rs))
             max_gap_m = max(5.0 * float(np.median(sp)) if sp.size else 500.0, 50.0)
         th, out = self._fan(pk, prog, src_layer, xs, zs_t, prm, rs, n_rays, tol_m, max_gap_m)
-        conv = self._solve(pk, prog, src_layer, xs, zs_t, prm, th, out, rx, good, tol_m)
+        th, out, jump = self._jumps(pk, prog, src_layer, xs, zs_t, prm, th, out, rs, tol_m,
+                                    max_gap_m)
+        conv = self._solve(pk, prog, src_layer, xs, zs_t, prm, th, out, jump, rx, good, tol_m)
         self._assemble(res, pk, conv, rx, rz_t, xs, zs_t, src_layer, prm, prog, return_paths,
                        max_path_points)
         res.n_traced = self.n_traced
         return res
 
     def _fan(self, pk, prog, src_layer, xs, zs, prm, rs, n_rays, tol_m, max_gap_m,
-             max_levels: int = 26, dth_min: float = 1e-7):
+             max_levels: int = 40, dth_min: float = _DTH_MIN, dth_edge: float = 1e-10):
         """Adaptive fan of take-off angles: (angles, kernel rows), sorted by angle."""
         thmax = np.radians(89.9)
         th = np.linspace(-thmax, thmax, max(int(n_rays), 3))
@@ -782,8 +843,9 @@ class RayTracer2D:
             e2[:-1] |= ext
             e2[1:] |= ext
             flag |= e2 & (hi - lo > tol_m)
-            flag |= ok[:-1] != ok[1:]
             flag &= np.diff(th) > dth_min
+            # where rays stop existing (post-critical, turning back), down to dth_edge
+            flag |= (ok[:-1] != ok[1:]) & (np.diff(th) > dth_edge)
             if not flag.any():
                 break
             new = 0.5 * (th[:-1][flag] + th[1:][flag])
@@ -795,12 +857,57 @@ class RayTracer2D:
             out = out[order]
         return th, out
 
-    def _solve(self, pk, prog, src_layer, xs, zs, prm, th, out, rx, good, tol_m,
-               max_iter: int = 40):
+    def _jumps(self, pk, prog, src_layer, xs, zs, prm, th, out, rs, tol_m, max_gap_m,
+               dth_min: float = _DTH_MIN):
+        """Tell jumps in emergence from steep but continuous stretches.
+
+        Kinks in interfaces or velocity make true gaps between neighbouring
+        rays: no ray emerges between them, however close their take-off
+        angles.  Intervals the fan could not close (wider than ``max_gap_m``,
+        or more than ``10 tol_m`` at the finest angle step) get one more ray
+        at their middle: where one half still holds nine tenths of the spread,
+        that half is a jump and brackets nothing.
+        """
+        ok = out[:, 0] == 0
+        X = out[:, 1]
+        dX = np.abs(np.diff(X))
+        both = ok[:-1] & ok[1:]
+        lo = np.minimum(X[:-1], X[1:])
+        hi = np.maximum(X[:-1], X[1:])
+        with np.errstate(invalid="ignore"):
+            has = (np.searchsorted(rs, hi + tol_m, "right")
+                   - np.searchsorted(rs, lo - tol_m, "left")) > 0
+            cand = both & has & ((dX > max_gap_m)
+                                 | ((np.diff(th) <= 4 * dth_min) & (dX > 10 * tol_m)))
+        ic = np.flatnonzero(cand)
+        if ic.size == 0:
+            return th, out, np.zeros(th.size - 1, bool)
+        mid = 0.5 * (th[ic] + th[ic + 1])
+        om = self._shoot(pk, prog, src_layer, xs, zs, mid, prm)[0]
+        okm = om[:, 0] == 0
+        left = np.abs(om[:, 1] - X[ic])
+        right = np.abs(X[ic + 1] - om[:, 1])
+        spread = dX[ic]
+        jl = ~okm | (left > 0.9 * spread)
+        jr = ~okm | (right > 0.9 * spread)
+        th2 = np.concatenate([th, mid])
+        out2 = np.concatenate([out, om])
+        order = np.argsort(th2, kind="stable")
+        # the new ray at sorted position q splits its interval into q - 1 and q
+        pos = np.empty(th2.size, int)
+        pos[order] = np.arange(th2.size)
+        q = pos[th.size:]
+        jump = np.zeros(th2.size - 1, bool)
+        jump[q - 1] = jl
+        jump[q] = jr
+        return th2[order], out2[order], jump
+
+    def _solve(self, pk, prog, src_layer, xs, zs, prm, th, out, jump, rx, good, tol_m,
+               max_iter: int = 30):
         """Bracket every receiver between neighbouring rays and refine each bracket."""
         ok = out[:, 0] == 0
         X = out[:, 1]
-        ia = np.flatnonzero(ok[:-1] & ok[1:])
+        ia = np.flatnonzero(ok[:-1] & ok[1:] & ~jump)
         gi = np.flatnonzero(good)
         order = gi[np.argsort(rx[gi], kind="stable")]
         rs = rx[order]
@@ -836,13 +943,17 @@ class RayTracer2D:
         active = ~(hit_a | hit_b)
         losses = np.zeros(m, int)
         bisect = np.zeros(m, bool)
-        for _ in range(max_iter):
+        guess = _quadratic_guess(th, X, ok, pint, xr)
+        for it in range(max_iter):
             act = np.flatnonzero(active)
             if act.size == 0:
                 break
             a_, b_, fa_, fb_ = ta[act], tb[act], fa[act], fb[act]
             with np.errstate(invalid="ignore", divide="ignore"):
                 tn = b_ - fb_ * (b_ - a_) / (fb_ - fa_)
+            if it == 0:
+                g = guess[act]
+                tn = np.where(np.isfinite(g), g, tn)
             lo_t = np.minimum(a_, b_)
             hi_t = np.maximum(a_, b_)
             bad = ~np.isfinite(tn) | (tn <= lo_t) | (tn >= hi_t) | bisect[act]
@@ -869,8 +980,8 @@ class RayTracer2D:
             fa[u] = np.where(swap, fb[u], 0.5 * fa[u])
             tb[u] = tnu
             fb[u] = fnu
-            tiny = np.abs(tb - ta) < 1e-13
-            active &= ~tiny
+            # a bracket shrunk to nothing holds no ray (a jump the fan did not see)
+            active &= np.abs(tb - ta) >= 1e-12
         got = np.isfinite(c_theta)
         return {"recv": recv[got], "theta": c_theta[got], "row": c_row[got]}
 
@@ -939,6 +1050,40 @@ class RayTracer2D:
                     paths[r] = np.column_stack([ppx[k, :ppn[k]], zz])
                 res.paths = paths
         res.flags[:] = [";".join(f) for f in flags]
+
+
+def _quadratic_guess(th, X, ok, pint, xr):
+    """Take-off angle at which each receiver is expected, by inverse quadratic interpolation.
+
+    Through the bracketing rays ``pint``, ``pint + 1`` and the neighbour on the
+    receiver's side, where the three emerge in monotone order; NaN elsewhere.
+    """
+    n = th.size
+    left = pint - 1
+    right = pint + 2
+    xa, xb = X[pint], X[pint + 1]
+    use_left = np.abs(xr - xa) < np.abs(xr - xb)
+    k = np.where(use_left, left, right)
+    valid = (k >= 0) & (k < n)
+    k = np.clip(k, 0, n - 1)
+    xk = X[k]
+    valid &= ok[k]
+    mono = np.where(use_left, (xa - xk) * (xb - xa) > 0, (xk - xb) * (xb - xa) > 0)
+    valid &= mono
+    x0 = np.where(use_left, xk, xa)
+    x1 = np.where(use_left, xa, xb)
+    x2 = np.where(use_left, xb, xk)
+    t0 = np.where(use_left, th[k], th[pint])
+    t1 = np.where(use_left, th[pint], th[pint + 1])
+    t2 = np.where(use_left, th[pint + 1], th[k])
+    with np.errstate(invalid="ignore", divide="ignore"):
+        g = (t0 * (xr - x1) * (xr - x2) / ((x0 - x1) * (x0 - x2))
+             + t1 * (xr - x0) * (xr - x2) / ((x1 - x0) * (x1 - x2))
+             + t2 * (xr - x0) * (xr - x1) / ((x2 - x0) * (x2 - x1)))
+    lo = np.minimum(th[pint], th[pint + 1])
+    hi = np.maximum(th[pint], th[pint + 1])
+    valid &= np.isfinite(g) & (g > lo) & (g < hi)
+    return np.where(valid, g, np.nan)
 
 
 def _empty_result(phase: str, xs: float, zs: float, rx: np.ndarray, rz: np.ndarray,

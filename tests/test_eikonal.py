@@ -169,6 +169,20 @@ def test_against_exact_1d_solver():
         assert np.all(status[far] == ref.status[far]), phase
 
 
+def test_deep_source_against_exact_1d_solver():
+    # a source in the lower crust: the direct wave is transmitted upward through the
+    # mid-crustal interface; the head wave along it does not exist for this source
+    m = LayeredModel.flat([0, 20e3, 35e3], [5800, 6500, 8040], names=["surface", "mid-crust", "moho"])
+    x = np.linspace(0.0, 300e3, 11)
+    for phase in ("direct", "head:moho", "reflection:moho", "first", "head:mid-crust"):
+        ref = m.solve(x, phase, source_depth_m=25e3)
+        t, status = phase_times(m, 0.0, 25e3, x, 0.0, phase, spacing_m=500.0)
+        assert np.all(status == ref.status), phase
+        ok = status == "ok"
+        assert np.all(np.abs(t[ok] - ref.time_s[ok]) <= _tol(ref.time_s[ok])), phase
+    assert np.all(status == "endpoint_below_interface")
+
+
 def test_turning_wave_in_a_gradient_layer():
     # diving wave through a gradient layer below a constant one, against the exact 1D solver
     m = LayeredModel.flat([0, 10e3], [5000, 6000], names=["surface", "top2"],
@@ -302,6 +316,10 @@ def test_statuses():
     _, st = phase_times(sec, 0.0, 0.0, [50e3, 50e3], [0.0, 31e3], "reflection:moho",
                         spacing_m=1000.0)
     assert st.tolist() == ["ok", "endpoint_below_interface"]
+    # the refractor lies below the bottom of the grid
+    _, st = phase_times(sec, 0.0, 0.0, [150e3], 0.0, "head:moho", spacing_m=1000.0,
+                        max_depth_m=25e3)
+    assert st.tolist() == ["outside_model"]
     fld = time_field(sec, 0.0, 0.0, "direct", spacing_m=1000.0, chainage_range_m=(-1e3, 60e3))
     r = fld.read([30e3, 90e3, np.nan], [0.0, 0.0, 0.0])
     assert r.status.tolist() == ["ok", "outside_model", "bad_coordinates"]

@@ -4,9 +4,12 @@ The section (chainage along the line, depth below the datum) is sampled on a
 square grid of spacing ``h``.  Travel times solve the eikonal equation
 :math:`|\\nabla T| = 1/v` by the fast marching method of Sethian (1996, PNAS 93,
 1591-1595) with second-order upwind differences, compiled with numba
-(:mod:`geosect.model._fmm_kernels`).  Nodes above a DEM surface are air: they
-are never traversed (they only receive times extrapolated from the ground, so
-that a receiver on the surface can be read by bilinear interpolation).
+(:mod:`geosect.model._fmm_kernels`), and with triangle updates from diagonal
+neighbours.  Nodes above a DEM surface are air and are not traversed: the row
+right above the ground is marched for the sake of the ground nodes at the steps
+of the staircase surface (first-order use only), the air above it only receives
+times extrapolated from the ground, so that a receiver on the surface can be
+read by bilinear interpolation.
 
 Phases are computed by the multistage scheme of Rawlinson & Sambridge (2004,
 "Wave front evolution in strongly heterogeneous layered media using the fast
@@ -17,8 +20,9 @@ march in the next layer: down (transmission), back up into the same layer
 overtake the incident ones, up from the refractor (``head:<name>``).  The
 times are carried across an interface at its true depth (between grid rows),
 not at the nearest row: they are interpolated onto the interface from the side
-just marched and extended to the first grid rows of the next layer as a local
-plane wave obeying Snell's law.
+just marched, and the two grid rows of the next layer along the interface take
+the least time over nearby interface points (Huygens' principle, which keeps
+Snell's law and the curvature of the front).  See ``docs/methods-eikonal.md``.
 
 ``first`` is, by default, the earliest of the direct (transmitted) wave and of
 every head/turning wave of the multistage scheme; ``method='grid'`` gives
@@ -63,6 +67,7 @@ __all__ = [
     "ray_path",
     "default_spacing_m",
     "DEFAULT_SPACING_M",
+    "STATUSES",
 ]
 
 #: Grid spacing used when the model and the frequency ask for nothing finer, metres.
@@ -81,7 +86,8 @@ DEFAULT_HALF_SPAN_M: float = 100e3
 #: Default vp/vs ratio when a section has no S velocities.
 DEFAULT_VPVS: float = 1.73
 
-_STATUS = ("ok", "no_ray", "below_critical_distance", "not_head_wave_interface",
+#: Status values of a reading.
+STATUSES: tuple[str, ...] = ("ok", "no_ray", "below_critical_distance", "not_head_wave_interface",
            "endpoint_below_interface", "pinched_out", "outside_model", "bad_coordinates")
 
 
@@ -510,7 +516,7 @@ class _Setup:
             self._rows[k] = None if rk.size == 0 else (int(rk[0]), int(rk[-1]) + 1)
         return self._rows[k]
 
-    def layers_at(self, x: np.ndarray, z: np.ndarray) -> np.ndarray:
+    def layers_at(self, x: np.ndarray, z: np.ndarray) -> tuple[np.ndarray, "_Columns"]:
         """Layer index at points (x, z) from the section at their own chainage."""
         c = self.sec.columns(x, self.wave)
         return c.layer_of(z), c
@@ -796,10 +802,10 @@ class _Solver:
         self.xs = float(xs)
         self.zs = float(zs)
         sec = setup.sec
-        ks, c = setup.layers_at(np.array([xs]), np.array([zs]))
-        self.ks = int(ks[0])
-        if self.ks < 0:
-            self.ks = 0
+        c = sec.columns(np.array([xs]), setup.wave)
+        # a source in the air above a DEM lies in the layer at the surface below it
+        ks = c.layer_of(np.array([max(zs, float(c.tops[0, 0]))]))
+        self.ks = int(max(ks[0], 0))
         self.src_cols = c
         self._D: dict[int, _Stage | None] = {}
         self._U: dict[tuple[int, int], _Stage | None] = {}
@@ -898,10 +904,10 @@ class _Solver:
                 m = self._existing_below(k)
                 dn = self.D(m) if m is not None and m <= self.ks else None
                 if dn is not None:
-                    tI = _carrier(s, dn, k + 1 if m == k + 1 else m)
-                    kk = k + 1 if m == k + 1 else m
-                    seeds = _seeds(s, kk, tI, k, below=False)
-                    st = _run(s, f"D{k}", None, k, seeds, False, dn, kk, -1,
+                    # interface m is the top of layer m; layers between k and m are absent
+                    tI = _carrier(s, dn, m)
+                    seeds = _seeds(s, m, tI, k, below=False)
+                    st = _run(s, f"D{k}", None, k, seeds, False, dn, m, -1,
                               _seeded_columns(seeds))
         self._D[k] = st
         return st
@@ -1199,7 +1205,9 @@ class TimeField:
                 status[usable & (layer >= k)] = "endpoint_below_interface"
             usable &= status == "ok"
             if kind in ("head", "turning") and k > sv.ks and usable.any():
-                if s.layer_rows(k) is None or sv.D(k) is None:
+                if s.layer_rows(k) is None and s.cols.tops[k].min() > g.z0 + g.h * (g.nz - 1):
+                    status[usable] = "outside_model"
+                elif s.layer_rows(k) is None or sv.D(k) is None:
                     status[usable] = "pinched_out"
                 elif not sv.zone(k).any():
                     status[usable] = "not_head_wave_interface"

@@ -199,6 +199,27 @@ def test_critical_distance_legs_from_elevated_sources_and_receivers():
     assert wide_angle([50e3], np.nan).count == 0
 
 
+def test_critical_distance_with_a_source_below_the_first_interface():
+    # Three constant layers; the legs of the critical ray of the deepest interface cross each layer above it at the
+    # angle asin(v_i / v_3): x_c = sum of (layer thickness along each leg) * tan(theta_i), the multilayer form in
+    # Kearey, Brooks & Hill (3rd ed., ch. 5).  A shot 1.5 km deep (below the first interface at 1 km) makes the legs
+    # kink inside the depth range, which is sampled densely.
+    v = np.array([3000.0, 5000.0, 7000.0])
+    m = LayeredModel.flat([0.0, 1e3, 9e3], v, names=["surface", "top2", "base"])
+    tan = np.tan(np.arcsin(v[:2] / v[2]))
+    zs = np.array([1.5e3, 1.5e3, 0.0, -400.0, 1.01e3])
+    zr = np.array([0.0, -800.0, 0.0, -400.0, 0.0])
+
+    def leg(z):
+        return np.where(z < 1e3, (1e3 - z) * tan[0] + 8e3 * tan[1], (9e3 - z) * tan[1])
+
+    got = critical_distances(m, "base", zs, zr, depth_samples=65)
+    # within one layer the legs are straight in depth, so linear interpolation is exact; only a depth between the
+    # two samples around the kink (1.01 km) is approximate
+    np.testing.assert_allclose(got[:4], (leg(zs) + leg(zr))[:4], rtol=1e-9)
+    assert got[4] == pytest.approx(leg(zs[4]) + leg(zr[4]), rel=2e-3)
+
+
 def test_critical_distance_interpolated_over_depth_in_a_gradient_layer():
     # With a gradient in the top layer each leg is no longer straight in depth; the interpolated legs must agree
     # with the model's critical distance computed pair by pair.

@@ -214,6 +214,16 @@ class RaySettings:
                                   is_file=True)
     offset_mismatch: float = opt(0.05, "Flag pairs whose geodesic and along-line offsets differ by more than this "
                                  "fraction.", minimum=0.0)
+    projection_limit_km: float = opt(2.0, "In a 2D model, pairs whose source or receiver lies farther than this from "
+                                     "the section line are flagged projected_far (the 2.5D approximation is poor), "
+                                     "km.", minimum=0.0)
+    grid_spacing_m: float | None = opt(None, "Grid spacing of the first-arrival (eikonal) solver for head waves, "
+                                       "direct waves and first arrivals in 2D models, m (default: from the model).",
+                                       minimum=0.0, exclusive_min=True)
+    smooth_interfaces: bool = opt(False, "Trace 2D rays through interfaces smoothed by a shape-preserving spline "
+                                  "(avoids false caustics at interface nodes).")
+    path_shots: list | None = opt(None, "Shots whose ray paths are kept for the section figure (default: up to three "
+                                  "shots spread along the line).")
 
 
 @dataclass

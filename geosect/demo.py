@@ -763,6 +763,7 @@ earth = "auto"               # spherical Earth for offsets over 100 km
 [rays]
 phases = ["reflection:conrad", "reflection:moho", "head:moho", "direct"]
 frequency_hz = 8.0
+grid_spacing_m = 1000.0      # first-arrival grid: about 10 ms at 200 km here (docs/methods-eikonal.md)
 
 [section]
 swath_km = 15.0

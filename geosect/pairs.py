@@ -56,7 +56,8 @@ def pair_geometry(shots: pd.DataFrame, stations: pd.DataFrame, si: np.ndarray, r
     -------
     DataFrame with ``shot_id, station_id, offset_m`` (geodesic, m), ``azimuth_deg`` (source to receiver,
     clockwise from north), ``line_offset_m`` (receiver minus source chainage), ``midpoint_easting,
-    midpoint_northing, midpoint_chainage_m, midpoint_crossline_m``, ``status, flags``.
+    midpoint_northing, midpoint_chainage_m, midpoint_crossline_m``, the chainage and crossline distance of
+    source and receiver (``source_chainage_m`` ...), ``status, flags``.
     """
     sh = {c: shots[c].to_numpy()[si] for c in ("easting", "northing", "lon", "lat", "chainage_m")}
     st = {c: stations[c].to_numpy()[ri] for c in ("easting", "northing", "lon", "lat", "chainage_m")}
@@ -73,8 +74,12 @@ def pair_geometry(shots: pd.DataFrame, stations: pd.DataFrame, si: np.ndarray, r
     status = np.full(n, "ok", dtype=object)
     if max_offset_m is not None:
         status[off > max_offset_m] = "beyond_max_offset"
+    xl_s = shots["crossline_m"].to_numpy(float)[si] if "crossline_m" in shots else np.full(n, np.nan)
+    xl_r = stations["crossline_m"].to_numpy(float)[ri] if "crossline_m" in stations else np.full(n, np.nan)
     return pd.DataFrame({
         "shot_id": shots["id"].to_numpy()[si], "station_id": stations["id"].to_numpy()[ri],
+        "source_chainage_m": sh["chainage_m"], "receiver_chainage_m": st["chainage_m"],
+        "source_crossline_m": xl_s, "receiver_crossline_m": xl_r,
         "offset_m": off, "azimuth_deg": az, "line_offset_m": line_off,
         "midpoint_easting": me, "midpoint_northing": mn, "midpoint_chainage_m": mch, "midpoint_crossline_m": mxl,
         "status": status, "flags": flags,

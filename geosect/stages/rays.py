@@ -31,6 +31,11 @@ EXTRA_COLUMNS = ["azimuth_deg", "midpoint_easting", "midpoint_northing", "midpoi
 #: flat-Earth error of a Moho head wave is a few tens of ms, comparable to a good pick's uncertainty).
 SPHERICAL_FROM_M = 100e3
 
+#: The ray fan is refined until neighbouring rays bracketing receivers emerge at most this far apart, m; the
+#: two-point search then converges within each bracket to 1 m (a coarser fan is faster; 2 km keeps every
+#: branch of the sample model, see benchmarks/bench_pairs.py).
+MAX_GAP_M = 2000.0
+
 
 @register("model", "loading the velocity model", needs=("settings:model", "line"), provides=("model",),
           in_check=True)
@@ -110,6 +115,92 @@ def _solve_columns(model, phase, geom, zs, zr, spherical, group_m: float = 2000.
             out[name][sel] = getattr(sol, name)
         status[sel] = sol.status
     return out, status
+
+
+def _join(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Join two arrays of ';'-separated flags element by element."""
+    a = np.asarray(a, dtype=object)
+    b = np.asarray(b, dtype=object)
+    return np.where(a == "", b, np.where(b == "", a, a + ";" + b))
+
+
+def _path_shots(ctx: Context, shots: pd.DataFrame) -> set:
+    """Shots whose ray paths are kept for the figure: as set, or up to three spread along the line."""
+    chosen = ctx.settings.rays.path_shots
+    if chosen is not None:
+        return set(chosen)
+    ok = shots[(shots["status"] == "ok") & np.isfinite(shots["chainage_m"])]
+    if "kind" in ok:
+        explosive = ok[ok["kind"].astype(str).str.lower().isin(["borehole", "explosive", "shot"])]
+        ok = explosive if len(explosive) else ok
+    if ok.empty:
+        return set()
+    ok = ok.sort_values("chainage_m")
+    pick = np.unique(np.round(np.linspace(0, len(ok) - 1, min(3, len(ok)))).astype(int))
+    return set(ok["id"].iloc[pick])
+
+
+def _tracer(ctx: Context, model, flatten: bool):
+    from ..model.raytrace2d import RayTracer2D
+
+    cache = ctx.artefacts.setdefault("_tracers", {})
+    if flatten not in cache:
+        cache[flatten] = RayTracer2D(model, smooth=ctx.settings.rays.smooth_interfaces, flatten=flatten)
+    return cache[flatten]
+
+
+def _solve_2d(ctx: Context, model, p: str, ph, geom: pd.DataFrame, zs, zr, spherical: bool, active):
+    """One phase of a 2D model, shot by shot: the ray tracer for reflections and turning rays, the
+    multistage eikonal solver for direct and head waves and first arrivals.
+
+    Sources and receivers are placed in the section plane at their chainage (the in-plane offset is the
+    along-line offset); their distance from the line is carried by the ``projected_far`` flag.
+    """
+    n = len(geom)
+    vals = {k: np.full(n, np.nan) for k in ("time_s", "p_s_per_m", "point_chainage_m", "point_depth_m",
+                                           "incidence_deg", "point_distance_m")}
+    status = np.full(n, "no_ray", dtype=object)
+    flags = np.full(n, "", dtype=object)
+    cs = geom["source_chainage_m"].to_numpy()
+    cr = geom["receiver_chainage_m"].to_numpy()
+    ids = geom["shot_id"].to_numpy()
+    starts = np.flatnonzero(np.r_[True, ids[1:] != ids[:-1]])
+    bounds = np.r_[starts, n]
+    keep_paths = ctx.artefacts.setdefault("_path_shots", _path_shots(ctx, ctx.artefacts["placed_shots"]))
+    paths: list = []
+    if ph.kind in ("reflection", "turning"):
+        method = "2d_ray_tracer" + ("_flattened" if spherical else "")
+        tracer = _tracer(ctx, model, spherical)
+    else:
+        method = "2d_eikonal_multistage"
+        from ..model.eikonal import phase_times
+    for a, b in zip(bounds[:-1], bounds[1:]):  # a loop over shots
+        sel = np.arange(a, b)[active[a:b]]
+        if sel.size == 0:
+            continue
+        src_ch, src_z = float(cs[a]), float(zs[a])
+        if ph.kind in ("reflection", "turning"):
+            want = ids[a] in keep_paths
+            res = tracer.trace(src_ch, src_z, cr[sel], zr[sel], p, return_paths=want, max_gap_m=MAX_GAP_M)
+            vals["time_s"][sel] = res.time_s
+            vals["p_s_per_m"][sel] = res.ray_parameter_s_per_m
+            vals["point_chainage_m"][sel] = res.point_chainage_m
+            vals["point_depth_m"][sel] = res.point_depth_m
+            vals["incidence_deg"][sel] = res.incidence_deg
+            status[sel] = res.status
+            flags[sel] = res.flags
+            if want and res.paths is not None:
+                step = max(1, len(sel) // 40)  # at most about 40 rays per shot and phase for the figure
+                for j in range(0, len(sel), step):
+                    path = res.paths[j]
+                    if path is not None and len(path) > 1:
+                        paths.append({"phase": p, "label": None, "chainage_m": path[:, 0], "depth_m": path[:, 1]})
+        else:
+            t, stt = phase_times(model, src_ch, src_z, cr[sel], zr[sel], p,
+                                 spacing_m=ctx.settings.rays.grid_spacing_m)
+            vals["time_s"][sel] = t
+            status[sel] = stt
+    return vals, status, flags, method, paths
 
 
 def _source_depths(shots: pd.DataFrame) -> np.ndarray:
@@ -200,6 +291,7 @@ def _phase_rows(ctx, model, p, ph, geom, ends, zs, zr, spherical, crs) -> pd.Dat
     flags = geom["flags"].to_numpy(dtype=object).copy()
     status = geom["status"].to_numpy(dtype=object).copy()
     active = status == "ok"
+    paths: list = []
     if model.is_1d:
         sol = _solve_1d(model, p, np.where(active, off, 0.0), zs, zr, spherical)
         vals = {k: getattr(sol, k) for k in ("time_s", "p_s_per_m", "point_distance_m", "point_depth_m",
@@ -207,32 +299,51 @@ def _phase_rows(ctx, model, p, ph, geom, ends, zs, zr, spherical, crs) -> pd.Dat
         st = sol.status
         method = "1d_exact_spherical" if spherical else "1d_exact"
     else:
-        vals, st = _solve_columns(model, p, geom, zs, zr, spherical)
-        method = "1d_column_at_midpoint"
-        flags = np.where(flags == "", "column_at_midpoint", flags + ";column_at_midpoint")
+        vals, st, more_flags, method, paths = _solve_2d(ctx, model, p, ph, geom, zs, zr, spherical, active)
+        flags = _join(flags, more_flags)
     status = np.where(active, st, status)
     for k in vals:
         vals[k] = np.where(status == "ok", vals[k], np.nan)
-    # reflection point on the map: on the straight source–receiver segment at the computed distance (1D)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        frac = np.clip(vals["point_distance_m"] / np.where(off > 0, off, np.nan), 0.0, 1.0)
-    frac = np.where(off == 0, 0.5, frac)
-    se, sn, re_, rn = ends
-    pe = se + frac * (re_ - se)
-    pn = sn + frac * (rn - sn)
     has_point = np.isfinite(vals["point_depth_m"])
-    pe = np.where(has_point, pe, np.nan)
-    pn = np.where(has_point, pn, np.nan)
-    pch = np.full(n, np.nan)
-    if has_point.any():
-        pch[has_point], _ = line.locate(pe[has_point], pn[has_point])
+    if model.is_1d:
+        # the reflection point on the map lies on the straight source–receiver segment at the computed distance
+        with np.errstate(invalid="ignore", divide="ignore"):
+            frac = np.clip(vals["point_distance_m"] / np.where(off > 0, off, np.nan), 0.0, 1.0)
+        frac = np.where(off == 0, 0.5, frac)
+        se, sn, re_, rn = ends
+        pe = np.where(has_point, se + frac * (re_ - se), np.nan)
+        pn = np.where(has_point, sn + frac * (rn - sn), np.nan)
+        pch = np.full(n, np.nan)
+        if has_point.any():
+            pch[has_point], _ = line.locate(pe[has_point], pn[has_point])
+    else:
+        # 2.5D: the point on the section line at its chainage, moved across the line by the crossline
+        # distance interpolated between source and receiver (see docs/coverage.md)
+        pch = vals["point_chainage_m"]
+        cs, cr = geom["source_chainage_m"].to_numpy(), geom["receiver_chainage_m"].to_numpy()
+        xs, xr = geom["source_crossline_m"].to_numpy(), geom["receiver_crossline_m"].to_numpy()
+        with np.errstate(invalid="ignore", divide="ignore"):
+            w = np.clip((pch - cs) / (cr - cs), 0.0, 1.0)
+        w = np.where(np.isfinite(w), w, 0.5)
+        xl = xs + w * (xr - xs)
+        pe, pn = np.full(n, np.nan), np.full(n, np.nan)
+        if has_point.any():
+            pe[has_point], pn[has_point] = line.position(pch[has_point], xl[has_point])
+        far = np.maximum(np.abs(xs), np.abs(xr)) > ctx.settings.rays.projection_limit_km * 1e3
+        flags = _join(flags, np.where(far, "projected_far", ""))
+        with np.errstate(invalid="ignore"):
+            vals["point_distance_m"] = np.abs(pch - cs)
+    if paths:
+        ctx.artefacts.setdefault("ray_paths", []).extend(paths)
     plon, plat = np.full(n, np.nan), np.full(n, np.nan)
     if has_point.any():
         plon[has_point], plat[has_point] = to_lonlat(crs, pe[has_point], pn[has_point])
     fin = np.full(n, np.nan)
     fxl = np.full(n, np.nan)
     if ph.kind == "reflection" and has_point.any():
-        fin, fxl = _fresnel(model if model.is_1d else None, p, vals, off, zs, zr, ctx.settings.rays.frequency_hz)
+        in_plane = off if model.is_1d else np.abs(geom["line_offset_m"].to_numpy())
+        fin, fxl = _fresnel(model if model.is_1d else None, p, vals, in_plane, zs, zr,
+                            ctx.settings.rays.frequency_hz)
         fin = np.where(has_point, fin, np.nan)
         fxl = np.where(has_point, fxl, np.nan)
     return pd.DataFrame({

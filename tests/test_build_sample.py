@@ -14,14 +14,18 @@ from geosect.cli.main import main
 def built(tmp_path_factory: pytest.TempPathFactory) -> Path:
     root = tmp_path_factory.mktemp("sample") / "survey"
     assert main(["-q", "demo", str(root)]) == 0
+    # keep the suite fast: every borehole shot and bad row, but only every 12th vibrator point
+    shots = (root / "shots.csv").read_text().splitlines()
+    keep = [ln for k, ln in enumerate(shots) if not ln.startswith("VP") or k % 12 == 0]
+    (root / "shots.csv").write_text("\n".join(keep) + "\n")
     assert main(["-q", "build", str(root)]) == 0
     return root
 
 
 def test_outputs_exist(built: Path) -> None:
     out = built / "out"
-    for name in ("stations.csv", "shots.csv", "geometry.gpkg", "report.md", "section.png", "section.svg",
-                 "section.pdf", "map.html"):
+    for name in ("stations.csv", "shots.csv", "rays.csv", "geometry.gpkg", "report.md", "section.png",
+                 "section.svg", "section.pdf", "map.html", "coverage.csv"):
         assert (out / name).exists(), name
     assert not list(out.glob(".*")), "no temporary files left behind"
 
@@ -53,7 +57,24 @@ def test_geometry_layers(built: Path) -> None:
     import pyogrio
 
     layers = {name for name, _ in pyogrio.list_layers(built / "out" / "geometry.gpkg")}
-    assert {"line", "stations", "shots", "bins"} <= layers
+    assert {"line", "stations", "shots", "midpoints", "reflection_points", "bins"} <= layers
+
+
+def test_rays_table(built: Path) -> None:
+    from geosect.stages.rays import RAY_COLUMNS
+
+    rays = pd.read_csv(built / "out" / "rays.csv", keep_default_na=False, low_memory=False)
+    assert list(rays.columns[: len(RAY_COLUMNS)]) == RAY_COLUMNS
+    st = pd.read_csv(built / "out" / "stations.csv", keep_default_na=False)
+    sh = pd.read_csv(built / "out" / "shots.csv", keep_default_na=False)
+    phases = 4  # the sample project asks for four phases
+    assert len(rays) == (st["status"] == "ok").sum() * (sh["status"] == "ok").sum() * phases
+    ok = rays[rays["status"] == "ok"]
+    assert set(ok["phase"]) == {"reflection:conrad", "reflection:moho", "head:moho", "direct"}
+    refl = ok[ok["phase"].str.startswith("reflection")]
+    assert (refl["point_depth_m"].astype(float) > 10e3).all()
+    assert (refl["fresnel_inline_m"].astype(float) > 0).all()
+    assert (rays.loc[rays["status"] != "ok", "time_s"] == "").all()  # no number where there is no ray
 
 
 def test_check_exits_zero_and_prints_summary(built: Path, capsys: pytest.CaptureFixture) -> None:

@@ -12,11 +12,11 @@ chainage_m, crossline_m, status, flags``; shots also ``depth_m``).  It comes fro
   and at the datum otherwise).
 
 Its source–receiver pairs go through the same steps as the survey's in the rays
-stage: pair geometry (:func:`geosect.pairs.pair_geometry`), source and receiver
-depths from the heights, the exact 1D solution (or the 1D column under the
-midpoint of a 2D model), the reflection point on the map segment from source to
-receiver located on the line.  Only what coverage needs is kept: nothing is
-written per pair.
+stage, using that stage's own functions: chunks of whole shots, pair geometry
+(:func:`geosect.pairs.pair_geometry`), source and receiver depths from the
+heights, the Earth chosen per chunk, and the row builder (exact 1D solutions, or
+for a 2D model the 2D ray tracer, with the reflection point placed on the line).
+Only what coverage needs is kept: nothing is written per pair.
 
 :func:`rank_candidates` tries one added station at each of many positions along
 the line: all usable shots × all candidates are solved in one call per phase, and
@@ -28,6 +28,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -35,7 +36,7 @@ import pandas as pd
 from .coverage import InterfaceCoverage, critical_distances, gaps_after_adding, interface_coverage, rank_by_gap
 from .errors import ConfigError, InputError
 from .model.phases import parse_phase
-from .pairs import pair_geometry, pair_index
+from .pairs import pair_geometry
 
 __all__ = [
     "Layout",
@@ -302,137 +303,112 @@ def candidate_stations(line, crs, spacing_m: float, *, topography: pd.DataFrame 
 
 def _depths(points: pd.DataFrame, source: bool) -> np.ndarray:
     """Depths below the datum (m) as the rays stage takes them: minus the height, plus a shot's depth."""
-    from .stages.rays import _receiver_depth
+    from .stages import rays
 
-    z = _receiver_depth(points.reset_index(drop=True))
-    if source and "depth_m" in points.columns:
-        z = z + np.nan_to_num(points["depth_m"].to_numpy(float), nan=0.0)
-    return z
+    pts = points.reset_index(drop=True)
+    return rays._source_depths(pts) if source else rays._receiver_depth(pts)
 
 
-def _spherical(earth: str, shot_index: np.ndarray, offset_m: np.ndarray, n_shots: int) -> np.ndarray:
-    """Per pair: solve on a sphere?  'auto' decides per shot from its largest offset, as the rays stage does."""
-    if earth == "flat":
-        return np.zeros(offset_m.size, bool)
-    if earth == "spherical":
-        return np.ones(offset_m.size, bool)
-    from .stages.rays import SPHERICAL_FROM_M
+def _settings_for(settings, earth: str | None, max_offset_m: float | None, offset_mismatch: float | None):
+    """A shallow copy of the settings with the Earth, offset limit and mismatch asked for (defaults otherwise)."""
+    import copy
 
-    mx = np.zeros(n_shots)
-    np.fmax.at(mx, shot_index, np.nan_to_num(offset_m, nan=0.0))
-    return mx[shot_index] > SPHERICAL_FROM_M
+    from .config import ModelSettings, Settings
 
-
-def _solve_phase(model, phase: str, geom: pd.DataFrame, zs: np.ndarray, zr: np.ndarray, sph: np.ndarray,
-                 src_e: np.ndarray, src_n: np.ndarray, rec_e: np.ndarray, rec_n: np.ndarray, line) -> pd.DataFrame:
-    off = geom["offset_m"].to_numpy(float)
-    n = off.size
-    gstatus = geom["status"].to_numpy(dtype=object)
-    active = gstatus == "ok"
-    pdist = np.full(n, np.nan)
-    pdep = np.full(n, np.nan)
-    time = np.full(n, np.nan)
-    status = np.full(n, "no_ray", dtype=object)
-    flags = geom["flags"].to_numpy(dtype=object).copy()
-    for flag in (False, True):  # at most two solves: flat and spherical
-        sel = np.flatnonzero(active & (sph == flag))
-        if sel.size == 0:
-            continue
-        if model.is_1d:
-            sol = model.solve(off[sel], phase, source_depth_m=zs[sel], receiver_depth_m=zr[sel], spherical=flag)
-            time[sel], pdist[sel], pdep[sel] = sol.time_s, sol.point_distance_m, sol.point_depth_m
-            status[sel] = sol.status
-        else:
-            from .stages.rays import _solve_columns
-
-            vals, st = _solve_columns(model, phase, geom.iloc[sel].reset_index(drop=True), zs[sel], zr[sel], flag)
-            time[sel], pdist[sel], pdep[sel] = vals["time_s"], vals["point_distance_m"], vals["point_depth_m"]
-            status[sel] = st
-    if not model.is_1d:
-        flags = np.where(flags == "", "column_at_midpoint", flags + ";column_at_midpoint")
-    status = np.where(active, status, gstatus)
-    good = status == "ok"
-    pdep = np.where(good, pdep, np.nan)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        frac = np.clip(pdist / np.where(off > 0, off, np.nan), 0.0, 1.0)
-    frac = np.where(off == 0, 0.5, frac)
-    has = np.isfinite(pdep) & np.isfinite(frac)
-    pch = np.full(n, np.nan)
-    if has.any():
-        pe = src_e[has] + frac[has] * (rec_e[has] - src_e[has])
-        pn = src_n[has] + frac[has] * (rec_n[has] - src_n[has])
-        pch[has], _ = line.locate(pe, pn)
-    return pd.DataFrame({
-        "shot_id": geom["shot_id"].to_numpy(), "station_id": geom["station_id"].to_numpy(), "phase": phase,
-        "offset_m": off, "line_offset_m": geom["line_offset_m"].to_numpy(),
-        "midpoint_chainage_m": geom["midpoint_chainage_m"].to_numpy(), "time_s": np.where(good, time, np.nan),
-        "point_chainage_m": pch, "point_depth_m": pdep, "source_depth_m": zs, "receiver_depth_m": zr,
-        "spherical": sph, "status": status, "flags": flags,
-    })
+    s = copy.copy(settings) if settings is not None else Settings()
+    s.rays = copy.copy(s.rays)
+    if s.model is None:
+        s.model = ModelSettings(file=Path("."), earth=earth or "auto")
+    elif earth is not None:
+        s.model = copy.copy(s.model)
+        s.model.earth = earth
+    if max_offset_m is not None:
+        s.rays.max_offset_km = max_offset_m / 1e3
+    if offset_mismatch is not None:
+        s.rays.offset_mismatch = offset_mismatch
+    return s
 
 
-def iter_reflections(shots: pd.DataFrame, stations: pd.DataFrame, model, phases: Sequence[str], line, *,
-                     earth: str = "auto", max_offset_m: float | None = None, offset_mismatch: float = 0.05,
-                     chunk_pairs: int = 250_000) -> Iterator[tuple[str, pd.DataFrame]]:
-    """Solve every usable shot × usable station pair, chunk by chunk of shots; yield ``(phase, rows)``.
+def iter_reflections(shots: pd.DataFrame, stations: pd.DataFrame, model, phases: Sequence[str], line, crs, *,
+                     settings=None, earth: str | None = None, max_offset_m: float | None = None,
+                     offset_mismatch: float | None = None, chunk_pairs: int = 500_000,
+                     tracers: dict | None = None) -> Iterator[tuple[str, pd.DataFrame]]:
+    """Solve every usable shot × usable station pair as the rays stage does; yield ``(phase, rows)`` per chunk.
+
+    The pairs go through the rays stage's own steps (chunks of whole shots, pair
+    geometry, the Earth chosen per chunk, the row builder of
+    :mod:`geosect.stages.rays`: exact 1D solutions, or for a 2D model the 2D ray
+    tracer), so a layout is computed exactly like the survey; nothing is written.
 
     Parameters
     ----------
     shots, stations : pandas.DataFrame
-        Placed points (``id, easting, northing, lon, lat, chainage_m, elevation_m,
-        dem_elevation_m, status``; shots may have ``depth_m``, below ground, m).
+        Placed points (``id, easting, northing, lon, lat, chainage_m, crossline_m,
+        elevation_m, dem_elevation_m, status``; shots may have ``depth_m``, below
+        ground, m).
     model : LayeredModel
-        1D (exact solution) or 2D (1D column under each midpoint).
+        1D or 2D.
     phases : sequence of str
         Phases to solve.
     line : SurveyLine
-        The section line (chainages of midpoints and reflection points).
-    earth : {'auto', 'flat', 'spherical'}
-        As ``[model] earth``: 'auto' is spherical for a shot whose largest offset exceeds 100 km.
-    max_offset_m : float, optional
-        Pairs beyond it get status ``beyond_max_offset`` and no ray.
-    offset_mismatch : float
-        As ``[rays] offset_mismatch``.
+        The section line.
+    crs : pyproj.CRS
+        The working CRS.
+    settings : Settings, optional
+        The project's settings (``[rays]`` and ``[model] earth``); defaults otherwise.
+    earth : {'auto', 'flat', 'spherical'}, optional
+        Overrides ``[model] earth``: 'auto' is spherical for a chunk whose largest
+        offset exceeds 100 km.
+    max_offset_m, offset_mismatch : float, optional
+        Override ``[rays] max_offset_km`` (in metres here) and ``offset_mismatch``.
     chunk_pairs : int
-        At most about this many pairs are solved at once (whole shots per chunk).
+        At most this many pairs per chunk (whole shots), as the rays stage.
+    tracers : dict, optional
+        A cache of 2D ray tracers to share with the rays stage
+        (``ctx.artefacts['_tracers']``).
 
     Yields
     ------
     phase : str
     rows : pandas.DataFrame
-        ``shot_id, station_id, phase, offset_m, line_offset_m, midpoint_chainage_m,
-        time_s, point_chainage_m, point_depth_m, source_depth_m, receiver_depth_m,
-        spherical, status, flags``, in shot-major order.
+        The rays stage's columns (``shot_id, station_id, phase, offset_m, ...,
+        point_chainage_m, point_depth_m, ..., status, flags, method``) plus
+        ``source_depth_m, receiver_depth_m`` and ``spherical``, in shot-major order.
     """
-    sh = shots[shots["status"] == "ok"].reset_index(drop=True)
-    st = stations[stations["status"] == "ok"].reset_index(drop=True)
-    n_sh, n_st = len(sh), len(st)
-    if n_sh == 0 or n_st == 0:
-        return
-    for c in ("easting", "northing", "lon", "lat", "chainage_m"):
-        sh[c] = sh[c].astype(float)
-        st[c] = st[c].astype(float)
-    zs_all = _depths(sh, True)
-    zr_all = _depths(st, False)
-    rec_e, rec_n = st["easting"].to_numpy(float), st["northing"].to_numpy(float)
-    per = max(1, int(chunk_pairs) // n_st)
-    for s0 in range(0, n_sh, per):  # a loop over chunks of shots
-        sub = sh.iloc[s0:s0 + per].reset_index(drop=True)
-        si, ri = pair_index(len(sub), n_st)
-        geom = pair_geometry(sub, st, si, ri, line, offset_mismatch=offset_mismatch, max_offset_m=max_offset_m)
-        off = geom["offset_m"].to_numpy(float)
-        sph = _spherical(earth, si, off, len(sub))
-        zs, zr = zs_all[s0 + si], zr_all[ri]
-        se, sn = sub["easting"].to_numpy(float)[si], sub["northing"].to_numpy(float)[si]
+    from .crs import WorkingCRS
+    from .pairs import iter_pair_chunks
+    from .pipeline import Context, Progress
+    from .report import Report
+    from .stages import rays
+
+    s = _settings_for(settings, earth, max_offset_m, offset_mismatch)
+    ctx = Context(s, Path("."), Report("planning (scratch)"), Progress(quiet=True))  # writes nothing
+    ctx.artefacts.update(line=line, crs=WorkingCRS(crs, "working CRS"), placed_shots=shots, _path_shots=set())
+    if tracers is not None:
+        ctx.artefacts["_tracers"] = tracers
+    parsed = {p: parse_phase(p) for p in phases}
+    max_off = None if s.rays.max_offset_km is None else s.rays.max_offset_km * 1e3
+    for sh, st, si, ri in iter_pair_chunks(shots, stations, None, max_pairs=chunk_pairs):  # chunks of shots
+        geom = pair_geometry(sh, st, si, ri, line, offset_mismatch=s.rays.offset_mismatch, max_offset_m=max_off)
+        zs = rays._source_depths(sh)[si]
+        zr = rays._receiver_depth(st)[ri]
+        off = geom["offset_m"].to_numpy()
+        spherical = rays._earth(ctx, float(np.nanmax(off)) if len(off) else 0.0)
+        ends = (sh["easting"].to_numpy(float)[si], sh["northing"].to_numpy(float)[si],
+                st["easting"].to_numpy(float)[ri], st["northing"].to_numpy(float)[ri])
         for p in phases:
-            yield p, _solve_phase(model, p, geom, zs, zr, sph, se, sn, rec_e[ri], rec_n[ri], line)
+            rows = rays._phase_rows(ctx, model, p, parsed[p], geom, ends, zs, zr, spherical, crs)
+            rows["source_depth_m"] = zs
+            rows["receiver_depth_m"] = zr
+            rows["spherical"] = spherical
+            yield p, rows
 
 
-def solve_reflections(shots: pd.DataFrame, stations: pd.DataFrame, model, phases: Sequence[str], line,
+def solve_reflections(shots: pd.DataFrame, stations: pd.DataFrame, model, phases: Sequence[str], line, crs,
                       **kw) -> dict[str, pd.DataFrame]:
     """All of :func:`iter_reflections` at once: one table per phase (shot-major order)."""
     parts: dict[str, list[pd.DataFrame]] = {p: [] for p in phases}
-    for p, rows in iter_reflections(shots, stations, model, phases, line, **kw):
+    for p, rows in iter_reflections(shots, stations, model, phases, line, crs, **kw):
         parts[p].append(rows)
     return {p: (pd.concat(v, ignore_index=True) if v else pd.DataFrame(columns=_KEEP + ["phase", "status"]))
             for p, v in parts.items()}
@@ -452,16 +428,14 @@ def _coverage_of(model, phase: str, rows: pd.DataFrame, edges_m, gap_m: float,
                               interface=ph.target, label=label)
 
 
-def evaluate_layout(layout: Layout, model, phases: Sequence[str], line, *, edges_m, gap_m: float,
-                    labels: Mapping[str, str] | None = None, earth: str = "auto",
-                    max_offset_m: float | None = None, offset_mismatch: float = 0.05,
-                    chunk_pairs: int = 250_000) -> LayoutCoverage:
+def evaluate_layout(layout: Layout, model, phases: Sequence[str], line, crs, *, edges_m, gap_m: float,
+                    labels: Mapping[str, str] | None = None, **kw) -> LayoutCoverage:
     """Coverage of a layout's reflection phases, computed like the survey's (nothing written per pair).
 
     Parameters
     ----------
     layout : Layout
-    model, phases, line :
+    model, phases, line, crs :
         As :func:`iter_reflections`; ``phases`` should be reflections.
     edges_m : array_like
         Chainage bin edges, in metres (the survey's, so the folds line up).
@@ -469,14 +443,12 @@ def evaluate_layout(layout: Layout, model, phases: Sequence[str], line, *, edges
         Gap threshold, in metres.
     labels : mapping, optional
         Phase → label.
-    earth, max_offset_m, offset_mismatch, chunk_pairs :
-        As :func:`iter_reflections`.
+    **kw :
+        Passed to :func:`iter_reflections` (``settings``, ``earth``, ``tracers``, ...).
     """
     labels = dict(labels or {})
     keep: dict[str, list[pd.DataFrame]] = {p: [] for p in phases}
-    for p, rows in iter_reflections(layout.shots, layout.stations, model, phases, line, earth=earth,
-                                    max_offset_m=max_offset_m, offset_mismatch=offset_mismatch,
-                                    chunk_pairs=chunk_pairs):
+    for p, rows in iter_reflections(layout.shots, layout.stations, model, phases, line, crs, **kw):
         keep[p].append(rows.loc[np.isfinite(rows["point_chainage_m"].to_numpy(float)), _KEEP])
     covs = {}
     for p in phases:
@@ -487,61 +459,57 @@ def evaluate_layout(layout: Layout, model, phases: Sequence[str], line, *, edges
 
 def survey_coverage(reflection_points: pd.DataFrame, model, phases: Sequence[str], *, edges_m, gap_m: float,
                     shots: pd.DataFrame | None = None, stations: pd.DataFrame | None = None,
-                    rays: pd.DataFrame | None = None, labels: Mapping[str, str] | None = None,
-                    earth: str = "auto") -> dict[str, InterfaceCoverage]:
+                    labels: Mapping[str, str] | None = None, earth: str = "auto") -> dict[str, InterfaceCoverage]:
     """Coverage of the real survey from the rays stage's reflection points.
 
     Parameters
     ----------
     reflection_points : pandas.DataFrame
         Rows of ``rays`` with a reflection point (``shot_id, station_id, phase,
-        offset_m, midpoint_chainage_m, point_chainage_m``).
+        offset_m, midpoint_chainage_m, point_chainage_m``, and ``method``, whose
+        ``_spherical`` or ``_flattened`` ending says the row was solved on a sphere).
     model, phases, edges_m, gap_m, labels :
         As :func:`evaluate_layout`.
     shots, stations : pandas.DataFrame, optional
         The placed shots and stations, for the source and receiver depths that the
         critical distances need (depth 0 for pairs whose points are not found).
-    rays : pandas.DataFrame, optional
-        All rays rows, for each shot's largest offset (the 'auto' Earth rule);
-        default the reflection points.
     earth : {'auto', 'flat', 'spherical'}
+        Used only when the rows carry no ``method``.
     """
     labels = dict(labels or {})
     rp = reflection_points
-    zs = np.zeros(len(rp))
-    zr = np.zeros(len(rp))
-    if shots is not None and len(shots) and len(rp):
+    n = len(rp)
+    zs = np.zeros(n)
+    zr = np.zeros(n)
+    if shots is not None and len(shots) and n:
         zmap = pd.Series(_depths(shots, True), index=shots["id"].to_numpy())
-        zmap = zmap[~zmap.index.duplicated()]
-        zs = rp["shot_id"].map(zmap).fillna(0.0).to_numpy(float)
-    if stations is not None and len(stations) and len(rp):
+        zs = rp["shot_id"].map(zmap[~zmap.index.duplicated()]).fillna(0.0).to_numpy(float)
+    if stations is not None and len(stations) and n:
         zmap = pd.Series(_depths(stations, False), index=stations["id"].to_numpy())
-        zmap = zmap[~zmap.index.duplicated()]
-        zr = rp["station_id"].map(zmap).fillna(0.0).to_numpy(float)
-    if earth == "auto":
+        zr = rp["station_id"].map(zmap[~zmap.index.duplicated()]).fillna(0.0).to_numpy(float)
+    if n and "method" in rp.columns:
+        sph = rp["method"].astype(str).str.endswith(("_spherical", "_flattened")).to_numpy()
+    elif earth == "auto" and n:
         from .stages.rays import SPHERICAL_FROM_M
 
-        src = rays if rays is not None and len(rays) else rp
-        mx = src.groupby("shot_id")["offset_m"].max() if len(src) else pd.Series(dtype=float)
-        sph = (rp["shot_id"].map(mx).fillna(0.0).to_numpy(float) > SPHERICAL_FROM_M) if len(rp) else np.zeros(0, bool)
+        sph = np.full(n, float(np.nanmax(rp["offset_m"].to_numpy(float))) > SPHERICAL_FROM_M)
     else:
-        sph = np.full(len(rp), earth == "spherical")
-    full = pd.DataFrame({"phase": rp["phase"].to_numpy() if len(rp) else np.empty(0, object),
-                         "offset_m": rp["offset_m"].to_numpy(float) if len(rp) else np.empty(0),
-                         "midpoint_chainage_m": rp["midpoint_chainage_m"].to_numpy(float) if len(rp) else np.empty(0),
-                         "point_chainage_m": rp["point_chainage_m"].to_numpy(float) if len(rp) else np.empty(0),
+        sph = np.full(n, earth == "spherical")
+    col = (lambda c: rp[c].to_numpy()) if n else (lambda c: np.empty(0))
+    full = pd.DataFrame({"phase": col("phase"), "offset_m": col("offset_m"),
+                         "midpoint_chainage_m": col("midpoint_chainage_m"), "point_chainage_m": col("point_chainage_m"),
                          "source_depth_m": zs, "receiver_depth_m": zr, "spherical": sph})
     return {p: _coverage_of(model, p, full[full["phase"] == p], edges_m, gap_m, labels.get(p)) for p in phases}
 
 
 def rank_candidates(points_m: Mapping[str, np.ndarray], shots: pd.DataFrame, candidates: pd.DataFrame, model,
-                    phases: Sequence[str], line, *, gap_m: float, earth: str = "auto",
-                    max_offset_m: float | None = None, offset_mismatch: float = 0.05) -> dict[str, pd.DataFrame]:
+                    phases: Sequence[str], line, crs, *, gap_m: float, **kw) -> dict[str, pd.DataFrame]:
     """Rank candidate station positions by how much each shrinks the largest gap of each interface.
 
-    Every usable shot is solved with every candidate as a receiver, in one solve per
-    phase (all candidates × shots together); each candidate's reflection points are
-    added to the survey's and the largest gap recomputed
+    Every usable shot is solved with every candidate as a receiver, all in one
+    chunk (for a 1D model one solve per phase for all candidates × shots together;
+    a 2D model is traced shot by shot, all candidates at once); each candidate's
+    reflection points are added to the survey's and the largest gap recomputed
     (:func:`geosect.coverage.gaps_after_adding`).
 
     Parameters
@@ -552,10 +520,12 @@ def rank_candidates(points_m: Mapping[str, np.ndarray], shots: pd.DataFrame, can
         The survey's placed shots.
     candidates : pandas.DataFrame
         Placed candidate stations (see :func:`candidate_stations`).
-    model, phases, line, earth, max_offset_m, offset_mismatch :
+    model, phases, line, crs :
         As :func:`iter_reflections`.
     gap_m : float
         Gap threshold, in metres.
+    **kw :
+        Passed to :func:`iter_reflections` (``settings``, ``earth``, ``tracers``, ...).
 
     Returns
     -------
@@ -568,8 +538,7 @@ def rank_candidates(points_m: Mapping[str, np.ndarray], shots: pd.DataFrame, can
     cand = candidates[candidates["status"] == "ok"].reset_index(drop=True)
     n_sh = int((shots["status"] == "ok").sum())
     n_c = len(cand)
-    solved = solve_reflections(shots, cand, model, phases, line, earth=earth, max_offset_m=max_offset_m,
-                               offset_mismatch=offset_mismatch, chunk_pairs=max(1, n_sh * n_c))
+    solved = solve_reflections(shots, cand, model, phases, line, crs, chunk_pairs=max(1, n_sh * n_c), **kw)
     out = {}
     for p in phases:
         rows = solved[p]

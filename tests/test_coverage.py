@@ -6,7 +6,6 @@ positions); expected values are hand counts of constructed cases or are recomput
 
 from __future__ import annotations
 
-import importlib.util
 import math
 from pathlib import Path
 
@@ -67,13 +66,10 @@ def _context(tmp_path: Path, line, shots, stations, model, phases, **cov) -> Con
 
 
 @pytest.fixture
-def run_rays(monkeypatch):
-    """The real rays stage; Fresnel zones are stubbed only while their module is not in the tree (unused here)."""
+def run_rays():
+    """The real rays stage."""
     from geosect.stages import rays
 
-    if importlib.util.find_spec("geosect.model.fresnel") is None:
-        monkeypatch.setattr(rays, "_fresnel", lambda model, p, vals, off, *a, **k: (np.full(len(off), np.nan),
-                                                                                    np.full(len(off), np.nan)))
     return rays.compute_rays
 
 

@@ -5,7 +5,6 @@ All layouts, tables and topography here are invented for the tests (synthetic).
 
 from __future__ import annotations
 
-import importlib.util
 from pathlib import Path
 
 import numpy as np
@@ -154,7 +153,7 @@ def test_plan_coverage_is_the_midpoint_count_of_a_flat_reflector():
     lay = layout_along_line(line, UTM33, name="P", station_spacing_m=2e3, shot_spacing_m=10e3, start_m=5e3,
                             end_m=45e3)
     edges = bin_edges(0.0, 50e3, 5e3, origin_m=2.5e3)  # edges off the whole km, so no point sits on one
-    res = evaluate_layout(lay, _flat(), ["reflection:moho"], line, edges_m=edges, gap_m=3e3)
+    res = evaluate_layout(lay, _flat(), ["reflection:moho"], line, UTM33, edges_m=edges, gap_m=3e3)
     cov = res.coverages["reflection:moho"]
     s = lay.shots["chainage_m"].to_numpy()
     r = lay.stations["chainage_m"].to_numpy()
@@ -172,9 +171,9 @@ def test_plan_coverage_is_the_midpoint_count_of_a_flat_reflector():
 def test_chunks_of_shots_do_not_change_the_result():
     line = _line(30.0)
     shots, stations = _points(line, [0.0, 7.0, 13.0, 29.0], "S"), _points(line, np.arange(0.5, 30.0, 1.5), "R")
-    whole = solve_reflections(shots, stations, _flat(), ["reflection:moho"], line)["reflection:moho"]
+    whole = solve_reflections(shots, stations, _flat(), ["reflection:moho"], line, UTM33)["reflection:moho"]
     parts = pd.concat([rows for _, rows in iter_reflections(shots, stations, _flat(), ["reflection:moho"], line,
-                                                            chunk_pairs=25)], ignore_index=True)
+                                                            UTM33, chunk_pairs=25)], ignore_index=True)
     assert len(whole) == 4 * 20
     pd.testing.assert_frame_equal(whole, parts)
 
@@ -193,7 +192,7 @@ def test_candidates_are_solved_in_one_call_per_phase(monkeypatch):
     shots = _points(line, [0.0, 10.0, 20.0], "S")
     cands = candidate_stations(line, UTM33, 4e3)  # 11 candidates
     out = rank_candidates({"reflection:moho": np.array([5e3, 6e3, 20e3])}, shots, cands, model,
-                          ["reflection:moho"], line, gap_m=3e3, earth="flat")
+                          ["reflection:moho"], line, UTM33, gap_m=3e3, earth="flat")
     assert calls == [("reflection:moho", 3 * 11)]
     assert len(out["reflection:moho"]) == 11
 
@@ -202,9 +201,6 @@ def _run_stage(tmp_path, monkeypatch, line, shots, stations, model, plans, phase
     from geosect.stages import rays
     from geosect.stages.coverage import compute_coverage
 
-    if importlib.util.find_spec("geosect.model.fresnel") is None:  # not in the tree yet; coverage does not use it
-        monkeypatch.setattr(rays, "_fresnel", lambda model, p, vals, off, *a, **k: (np.full(len(off), np.nan),
-                                                                                    np.full(len(off), np.nan)))
     s = Settings()
     s.model = ModelSettings(file=tmp_path / "model.toml")
     s.rays.phases = list(phases)
@@ -231,7 +227,7 @@ def test_a_plan_equal_to_the_survey_gets_the_survey_numbers(tmp_path, monkeypatc
     ctx = _run_stage(tmp_path, monkeypatch, line, lay.shots, lay.stations, model, [])
     out = ctx.artefacts["coverage"]
     survey = out.survey["reflection:moho"]
-    mine = evaluate_layout(lay, model, ["reflection:moho"], line, edges_m=out.edges_m, gap_m=5e3)
+    mine = evaluate_layout(lay, model, ["reflection:moho"], line, UTM33, edges_m=out.edges_m, gap_m=5e3)
     plan = mine.coverages["reflection:moho"]
     np.testing.assert_array_equal(plan.fold, survey.fold)
     np.testing.assert_allclose(plan.span_m, survey.span_m, atol=1e-3)
@@ -270,16 +266,17 @@ def test_plans_are_compared_side_by_side_in_the_report(tmp_path, monkeypatch):
     assert [p.name for p in out.plans] == ["dense", "short"]
 
 
-def test_a_2d_model_plan_is_solved_in_columns_under_the_midpoints():
+def test_a_2d_model_plan_goes_through_the_rays_stage_2d_tracer():
     line = _line(60.0)
     itfs = [Interface("surface", [0.0], [0.0]), Interface("moho", [0.0, 60e3], [30e3, 36e3])]
     model = LayeredModel(itfs, [Layer("crust", [6000.0, 6300.0], [6500.0, 6800.0], chainage_m=[0.0, 60e3],
                                       vpvs=1.73), Layer("mantle", 8000.0, None, vpvs=1.78)])
     lay = layout_along_line(line, UTM33, name="2d", station_spacing_m=3e3, shot_spacing_m=30e3)
-    rows = solve_reflections(lay.shots, lay.stations, model, ["reflection:moho"], line)["reflection:moho"]
-    assert (rows["status"] == "ok").all()
-    assert rows["flags"].str.contains("column_at_midpoint").all()
-    # the reflection depth is the interface depth in the column of the pair's 2 km midpoint group (the model's
-    # interfaces are linear between nodes and constant beyond the end nodes)
-    centre = (np.floor(rows["midpoint_chainage_m"] / 2e3) + 0.5) * 2e3
-    np.testing.assert_allclose(rows["point_depth_m"], np.interp(centre, [0.0, 60e3], [30e3, 36e3]), rtol=1e-9)
+    rows = solve_reflections(lay.shots, lay.stations, model, ["reflection:moho"], line, UTM33)["reflection:moho"]
+    assert len(rows) == lay.n_pairs  # every pair kept, with its status
+    assert set(rows["method"]) == {"2d_ray_tracer"}
+    ok = (rows["status"] == "ok").to_numpy()
+    assert ok.mean() > 0.8
+    # a reflection point lies on its reflector
+    np.testing.assert_allclose(rows.loc[ok, "point_depth_m"],
+                               model.interface_depth("moho", rows.loc[ok, "point_chainage_m"]), atol=1.0)

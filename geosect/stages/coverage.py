@@ -113,7 +113,6 @@ def compute_coverage(ctx: Context) -> None:
     stations = ctx.artefacts.get("placed_stations")
     topo = ctx.artefacts.get("topography")
     earth = getattr(s.model, "earth", "auto") if s.model is not None else "auto"
-    max_off = None if s.rays.max_offset_km is None else s.rays.max_offset_km * 1e3
     gap_m, bin_m = cs.gap_km * 1e3, cs.bin_km * 1e3
     phases = reflection_phases(s.rays.phases, rp)
     sec = ctx.report.section("Coverage per interface")
@@ -139,7 +138,8 @@ def compute_coverage(ctx: Context) -> None:
     edges = bin_edges(min(reach), max(reach), bin_m)
 
     survey = survey_coverage(rp, model, phases, edges_m=edges, gap_m=gap_m, shots=shots, stations=stations,
-                             rays=rays, labels=labels, earth=earth)
+                             labels=labels, earth=earth)
+    solve_kw = dict(settings=s, tracers=ctx.artefacts.setdefault("_tracers", {}))  # solved as the rays stage does
     surface = _surface_depth(ctx)
     design = {p: design_check(c, _design_depth(model, c, line.length), surface) for p, c in survey.items()}
 
@@ -148,15 +148,14 @@ def compute_coverage(ctx: Context) -> None:
         cands = candidate_stations(line, crs, cs.candidate_spacing_km * 1e3, topography=topo)
         by_phase = {p: rp.loc[rp["phase"] == p, "point_chainage_m"].to_numpy(float) for p in phases} if len(rp) \
             else {p: np.empty(0) for p in phases}
-        ranking = rank_candidates(by_phase, shots, cands, model, phases, line, gap_m=gap_m, earth=earth,
-                                  max_offset_m=max_off, offset_mismatch=s.rays.offset_mismatch)
+        ranking = rank_candidates(by_phase, shots, cands, model, phases, line, crs, gap_m=gap_m, **solve_kw)
 
     results = [LayoutCoverage(SURVEY, int((stations["status"] == "ok").sum()) if stations is not None else 0,
                               int((shots["status"] == "ok").sum()) if shots is not None else 0,
                               _survey_pairs(ctx, rays), survey, "survey")]
     for lay in ctx.progress.iter(layouts, len(layouts), "planned layouts"):
-        results.append(evaluate_layout(lay, model, phases, line, edges_m=edges, gap_m=gap_m, labels=labels,
-                                       earth=earth, max_offset_m=max_off, offset_mismatch=s.rays.offset_mismatch))
+        results.append(evaluate_layout(lay, model, phases, line, crs, edges_m=edges, gap_m=gap_m, labels=labels,
+                                       **solve_kw))
 
     out = ctx.artefacts["coverage"] = CoverageOutcome(edges, survey, design, ranking, results[1:])
     _write(ctx, out, results)

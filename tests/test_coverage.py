@@ -338,6 +338,22 @@ def test_stage_without_reflection_phases_says_so(tmp_path, run_rays):
     assert "no interface to cover" in ctx.report.render()
 
 
+def test_stage_with_no_reflection_point_reports_dashes(tmp_path, run_rays):
+    # every pair beyond [rays] max_offset_km: the rows stay (status beyond_max_offset), no reflection point
+    line = _line(30.0)
+    ctx = _context(tmp_path, line, _points(line, [0.0], "S"), _points(line, [10.0, 20.0], "R"), _two_layer(),
+                   ["reflection:basement"], candidates=2)
+    ctx.settings.rays.max_offset_km = 1.0
+    out = _run(ctx, run_rays)
+    cov = out.survey["reflection:basement"]
+    assert cov.n_points == 0 and cov.fold.sum() == 0 and cov.n_gaps == 0
+    assert np.isnan(cov.span_m[0]) and cov.wide.count == 0
+    assert out.design["reflection:basement"].verdict == "no"
+    text = ctx.report.render()
+    assert "fewer than two reflection points" in text
+    assert set(ctx.artefacts["rays"]["status"]) == {"beyond_max_offset"}
+
+
 # --------------------------------------------------------------------------- figure
 
 

@@ -34,6 +34,10 @@ class Progress:
         if not self.quiet:
             print(text, file=self.stream, flush=True)
 
+    def counter(self, total: int, label: str) -> "_Counter":
+        """A counter to advance by hand: ``c = progress.counter(n, "shots"); c.add(k); ...; c.done()``."""
+        return _Counter(self, total, label)
+
     def iter(self, items: Iterable[Any], total: int, label: str) -> Iterator[Any]:
         """Yield ``items`` while showing ``label  k/total``."""
         t0 = time.perf_counter()
@@ -50,6 +54,34 @@ class Progress:
                 print(f"    {label} {k}/{total} ({now - t0:.1f} s)", file=self.stream, flush=True)
         if self.tty and not self.quiet and total:
             print(file=self.stream, flush=True)
+
+
+class _Counter:
+    def __init__(self, progress: Progress, total: int, label: str):
+        self.p, self.total, self.label = progress, total, label
+        self.k = 0
+        self.t0 = time.perf_counter()
+        self.last = -1.0
+        self.next_line = max(1, total // 10)
+
+    def add(self, n: int = 1) -> None:
+        self.k += n
+        p = self.p
+        if p.quiet:
+            return
+        now = time.perf_counter()
+        if p.tty and (now - self.last > 0.2 or self.k >= self.total):
+            print(f"\r    {self.label} {self.k}/{self.total} ({now - self.t0:.1f} s)", end="", file=p.stream,
+                  flush=True)
+            self.last = now
+        elif not p.tty and (self.k >= self.next_line or self.k >= self.total):
+            print(f"    {self.label} {self.k}/{self.total} ({now - self.t0:.1f} s)", file=p.stream, flush=True)
+            while self.next_line <= self.k:
+                self.next_line += max(1, self.total // 10)
+
+    def done(self) -> None:
+        if self.p.tty and not self.p.quiet and self.total:
+            print(file=self.p.stream, flush=True)
 
 
 @dataclass

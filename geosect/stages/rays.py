@@ -174,7 +174,10 @@ def _solve_2d(ctx: Context, model, p: str, ph, geom: pd.DataFrame, zs, zr, spher
     else:
         method = "2d_eikonal_multistage"
         from ..model.eikonal import phase_times
+    counter = ctx.artefacts.get("_counter")
     for a, b in zip(bounds[:-1], bounds[1:]):  # a loop over shots
+        if counter is not None:
+            counter.add(1)
         sel = np.arange(a, b)[active[a:b]]
         if sel.size == 0:
             continue
@@ -244,7 +247,10 @@ def compute_rays(ctx: Context) -> None:
     with atomic_path(target) as tmp:
         with open(tmp, "w", newline="") as fh:
             header = True
-            for sh, st, si, ri in ctx.progress.iter(chunks, len(chunks), "groups of shots"):
+            n_shots = sum(len(np.unique(c[2])) for c in chunks)
+            counter = ctx.progress.counter(n_shots * len(phases), "shot gathers × phases")
+            ctx.artefacts["_counter"] = counter
+            for sh, st, si, ri in chunks:
                 geom = pair_geometry(sh, st, si, ri, line, offset_mismatch=s.rays.offset_mismatch,
                                      max_offset_m=max_off)
                 keep_mid.append(geom)
@@ -264,6 +270,10 @@ def compute_rays(ctx: Context) -> None:
                     header = False
                     n_rows += len(out)
                     keep_points.append(rows)
+                    if model.is_1d:
+                        counter.add(len(np.unique(si)))
+            counter.done()
+            ctx.artefacts.pop("_counter", None)
     rp = pd.concat(keep_points, ignore_index=True) if keep_points else pd.DataFrame(columns=RAY_COLUMNS)
     ctx.artefacts["rays"] = rp
     ctx.artefacts["reflection_points"] = rp[np.isfinite(rp["point_depth_m"].to_numpy(float))].reset_index(drop=True)

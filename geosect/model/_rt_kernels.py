@@ -676,11 +676,12 @@ def _prop_rk(ifx, ifz, ifd, ifo, ifsm, ifb, lvx, lvp, lvo, lnx, lpv, j, n_if, x0
             elif sn < 0.0:
                 tgt = lpv[lvlo + nvel - 1] if kv >= nvel - 1 else (lpv[lvlo + kv] if kv >= 0 else -1)
             if tgt >= 0:
-                # (a kink within the first hundredth of the step is left alone: the
-                # path curves, so aiming at it exactly could shrink the steps forever)
-                dist = (lvx[tgt] - x) / sn
-                if dist > 0.01 * h and dist < h:
-                    h = dist * (1.0 + 1e-6) + 1e-4
+                # aim a millimetre past the kink; the path curves, so a step may end
+                # just short of it, and the next (tiny) step then crosses it
+                xt = lvx[tgt] + (1e-3 if sn > 0.0 else -1e-3)
+                dist = (xt - x) / sn
+                if dist > 0.0 and dist < h:
+                    h = dist
         # a step whose end left the layer although its chord crossed no
         # interface (the ray dipped out and back near the start) is halved
         for _try in range(40):
@@ -703,15 +704,22 @@ def _prop_rk(ifx, ifz, ifd, ifo, ifsm, ifb, lvx, lvp, lvo, lnx, lpv, j, n_if, x0
                 sb = _cross_line(ifx, ifz, ifo, ifb, j + 1, x, z, ux, uz, st, 1, smin)
             if st < cl or sb < cl:
                 break
-            outside = False
+            out_top = False
+            out_bot = False
             if near_top:
                 zt, _m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, j, x1)
-                outside = z1 < zt - 1e-9
-            if near_bot and not outside:
+                out_top = z1 < zt - 1e-9
+            if near_bot and not out_top:
                 zb, _m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, j + 1, x1)
-                outside = z1 > zb + 1e-9
-            if not outside:
+                out_bot = z1 > zb + 1e-9
+            if not (out_top or out_bot):
                 break
+            if h < 1e-3:
+                # the ray leaves the layer where it stands (it starts on an interface,
+                # heading out of the layer): an exit at the current point
+                iface = j if out_top else j + 1
+                zi, _m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, iface, x)
+                return (1 if out_top else 2), x, zi, math.sin(th), math.cos(th), t, dpx, dpz, 0
             h *= 0.5
         else:
             # grazing along the interface: give the ray up

@@ -803,7 +803,7 @@ class RayTracer2D:
         n_if = pk.arrays[3].size - 1
         tmax = 20.0 * (span_hi - span_lo + 2 * pad + 2 * float(np.max(np.abs(pk.arrays[1])))) / pk.vmin
         prm = np.array([span_lo - pad, span_hi + pad, self.step_m, self.max_turn, _EPS_COINCIDE,
-                        tmax, 8 * n_if + 16, 200000, 1e-6, 1.0 if self.node_steps else 0.0])
+                        tmax, 8 * n_if + 16, 50000, 1e-6, 1.0 if self.node_steps else 0.0])
         rs = np.sort(gx)
         if max_gap_m is None:
             sp = np.diff(np.unique(rs))
@@ -822,6 +822,9 @@ class RayTracer2D:
         """Adaptive fan of take-off angles: (angles, kernel rows), sorted by angle."""
         thmax = np.radians(89.9)
         th = np.linspace(-thmax, thmax, max(int(n_rays), 3))
+        # shifted off the vertical by a small odd fraction of the spacing, so that no
+        # ray of a symmetric set-up hits a node (a kink) exactly
+        th = np.clip(th + 0.0137 * (th[1] - th[0]), -thmax, thmax)
         out = self._shoot(pk, prog, src_layer, xs, zs, th, prm)[0]
         for _ in range(max_levels):
             ok = out[:, 0] == 0
@@ -844,8 +847,12 @@ class RayTracer2D:
             e2[1:] |= ext
             flag |= e2 & (hi - lo > tol_m)
             flag &= np.diff(th) > dth_min
-            # where rays stop existing (post-critical, turning back), down to dth_edge
+            # where rays stop existing (post-critical, turning back), down to dth_edge;
+            # and between lost rays lost for different reasons, where a narrow window
+            # of good rays may hide
+            code = out[:, 0]
             flag |= (ok[:-1] != ok[1:]) & (np.diff(th) > dth_edge)
+            flag |= (~ok[:-1] & ~ok[1:] & (code[:-1] != code[1:])) & (np.diff(th) > dth_min)
             if not flag.any():
                 break
             new = 0.5 * (th[:-1][flag] + th[1:][flag])

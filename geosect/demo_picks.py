@@ -76,6 +76,8 @@ def _context(directory: Path, out_dir: Path):
     from .report import Report
 
     s = _settings_without_picks(directory)
+    s.geology = s.faults = s.hypocentres = None  # not needed for travel times
+    s.horizons, s.plans = [], []
     ctx = Context(s, out_dir, Report("synthetic picks"), Progress(quiet=True))
     by = {st.name: st for st in stages()}
     run_stages(ctx, [by[n] for n in ("inputs", "line", "place", "topography", "model") if n in by])

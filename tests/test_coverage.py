@@ -164,7 +164,7 @@ def test_wide_angle_count_matches_the_two_layer_critical_distance(tmp_path, run_
     shots = _points(line, [0.0, 30.0, 60.0], "S")
     stations = _points(line, np.arange(0.25, 60.0, 1.0), "R")
     ctx = _context(tmp_path, line, shots, stations, _two_layer(h, v1, v2), ["reflection:basement"],
-                   bin_km=2.0, candidates=0)
+                   bin_km=2.0, gap_km=5.0, candidates=3)
     out = _run(ctx, run_rays)
     rows = ctx.artefacts["reflection_points"]
     off = rows["offset_m"].to_numpy(float)
@@ -176,6 +176,9 @@ def test_wide_angle_count_matches_the_two_layer_critical_distance(tmp_path, run_
     assert out.design["reflection:basement"].reaches_critical
     wide_direct = wide_angle(off, xc)
     assert wide_direct.count == w.count
+    # no gap longer than 5 km: no candidate station is tried
+    assert out.candidates == {}
+    assert "no gap longer than 5 km, no added station needed" in ctx.report.render()
 
 
 def test_critical_distance_legs_from_elevated_sources_and_receivers():

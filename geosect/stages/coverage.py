@@ -144,11 +144,11 @@ def compute_coverage(ctx: Context) -> None:
     design = {p: design_check(c, _design_depth(model, c, line.length), surface) for p, c in survey.items()}
 
     ranking: dict[str, pd.DataFrame] = {}
-    if cs.candidates > 0 and shots is not None and len(shots):
+    gapped = [p for p in phases if survey[p].n_gaps > 0]  # only an interface with a gap needs another station
+    if cs.candidates > 0 and gapped and shots is not None and len(shots):
         cands = candidate_stations(line, crs, cs.candidate_spacing_km * 1e3, topography=topo)
-        by_phase = {p: rp.loc[rp["phase"] == p, "point_chainage_m"].to_numpy(float) for p in phases} if len(rp) \
-            else {p: np.empty(0) for p in phases}
-        ranking = rank_candidates(by_phase, shots, cands, model, phases, line, crs, gap_m=gap_m, **solve_kw)
+        by_phase = {p: rp.loc[rp["phase"] == p, "point_chainage_m"].to_numpy(float) for p in gapped}
+        ranking = rank_candidates(by_phase, shots, cands, model, gapped, line, crs, gap_m=gap_m, **solve_kw)
 
     results = [LayoutCoverage(SURVEY, int((stations["status"] == "ok").sum()) if stations is not None else 0,
                               int((shots["status"] == "ok").sum()) if shots is not None else 0,
@@ -237,19 +237,21 @@ def _report_design(ctx: Context, out: CoverageOutcome, cs) -> None:
                      "yes" if d.reaches_critical else "no"))
     sec.table(["interface", "depth (km)", f"{f_lo:g}–{f_hi:g}× depth (km)", "largest offset (km)",
                "offset / depth", "reaches it", "critical distance (km)", "offsets beyond it"], rows, escape=False)
-    if not out.candidates:
-        if cs.candidates > 0:
-            sec.text("No candidate stations were tried (no usable shots).")
+    if cs.candidates <= 0:
         return
-    sec.text(f"Candidate stations every {cs.candidate_spacing_km:g} km along the section line (on the line, at the "
-             "topography's height where known), each solved with every usable shot; ranked by the largest gap "
-             "left on the interface once its reflection points are added (candidates.csv lists all).")
-    for p, t in out.candidates.items():
-        c = out.survey[p]
-        a, b = t.attrs.get("before_m", (np.nan, np.nan))
-        if not np.isfinite(a):
-            sec.text(f"{md_escape(c.label)}: fewer than two reflection points, no gap to shrink.")
+    if out.candidates:
+        sec.text(f"Candidate stations every {cs.candidate_spacing_km:g} km along the section line (on the line, at "
+                 "the topography's height where known), each solved with every usable shot; ranked by the largest "
+                 "gap left on the interface once its reflection points are added (candidates.csv lists all).")
+    for p, c in out.survey.items():
+        t = out.candidates.get(p)
+        if t is None:
+            why = ("fewer than two reflection points, no gap to shrink" if c.n_points < 2 else
+                   f"no gap longer than {c.gap_m / 1e3:g} km, no added station needed" if c.n_gaps == 0 else
+                   "no usable shots to try candidate stations with")
+            sec.text(f"{md_escape(c.label)}: {why}.")
             continue
+        a, b = t.attrs.get("before_m", (np.nan, np.nan))
         best = t[t["shrink_m"] > 1e-6].head(cs.candidates)
         head = f"{md_escape(c.label)}: largest gap now {_km(b - a)} km ({_range_km(a, b)} km)."
         if not len(best):

@@ -121,7 +121,7 @@ def main() -> None:
     print(f"  2D tracer, 2D model        {t2d:8.2f} s   {1e3 * t2d / (n_shots * len(PHASES)):7.1f} ms "
           f"per shot and phase   {rays / t2d:10.0f} rays/s   ({rays / pairs:.2f} rays per pair)")
     print(f"  2D tracer, flat model      {tflat2d:8.2f} s   (scaled from {max(n_shots // 10, 1)} "
-          f"shots; largest difference from the 1D solver {worst * 1e3:.4f} ms)")
+          f"shots; largest difference from the 1D solver {worst * 1e6:.3f} us)")
     print(f"  1D solver, flat model      {t1d:8.2f} s")
     print(f"  ratio 2D model / 1D solver {t2d / t1d:8.1f}x slower")
     print(f"  ratio flat 2D / 1D solver  {tflat2d / t1d:8.1f}x slower")

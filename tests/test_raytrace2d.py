@@ -40,8 +40,8 @@ def const_model(interfaces, velocities, names=None, layer_names=None, vpvs=1.73)
 
 def test_flat_constant_layers_equal_1d_solver_and_hyperbola():
     # Two constant layers: the reflection hyperbola t^2 = (x^2 + 4 h^2) / v1^2
-    # (Telford, Geldart & Sheriff, Applied Geophysics, 2nd ed., section 4.3),
-    # and the project's exact 1D solver, to 0.1 ms.
+    # (Telford, Geldart & Sheriff, Applied Geophysics, 2nd ed., section 4.3 -- the
+    # section number from memory), and the project's exact 1D solver, to 0.1 ms.
     h, v1, v2 = 2500.0, 3200.0, 4500.0
     m = LayeredModel.flat([0.0, h], [v1, v2], names=["surface", "base"])
     x = np.linspace(-12e3, 12e3, 121)
@@ -78,7 +78,7 @@ def test_flat_gradient_layers_equal_1d_solver():
 def test_linear_gradient_turning_ray_closed_form():
     # v = v0 + g z, surface source and receivers: t = (2/g) asinh(g x / (2 v0)) and
     # turning depth z = (v0/g) (sqrt(1 + (g x / (2 v0))^2) - 1)  (Shearer,
-    # Introduction to Seismology, ch. 4; the turning point lies midway).
+    # Introduction to Seismology, ch. 4, from memory; the turning point lies midway).
     v0, g = 3000.0, 0.8
     m = TraceModel.flat([0.0], [v0], gradients=[g], names=["surface"], layer_names=["crust"])
     xs = 5000.0
@@ -147,7 +147,8 @@ def test_dipping_plane_reflector_image_source(dip_deg):
     # Constant velocity over a plane dipping reflector z = z0 + x tan(dip).  The
     # reflected ray comes from the image of the source mirrored in the plane:
     # t = |S' R| / v, and the reflection point is where S'R meets the plane
-    # (Telford, Geldart & Sheriff, Applied Geophysics, 2nd ed., section 4.3).
+    # (Telford, Geldart & Sheriff, Applied Geophysics, 2nd ed., section 4.3 -- the
+    # section number from memory).
     # Receivers on both sides: shooting up-dip and down-dip.
     v, z0 = 3000.0, 3000.0
     tan = np.tan(np.radians(dip_deg))

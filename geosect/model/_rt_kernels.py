@@ -658,6 +658,10 @@ def _prop_rk(ifx, ifz, ifd, ifo, ifsm, ifb, lvx, lvp, lvo, lnx, lpv, j, n_if, x0
     cut = prm[P_CUT] != 0.0
     top_max = ifb[j, 1] + 1e-6
     bot_min = ifb[j + 1, 0] - 1e-6 if has_bot else _INF
+    # a source above the recording surface starts outside the top layer: the top
+    # is not watched until the ray is below it
+    z_top0, _m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, j, x0)
+    watch_top = z0 >= z_top0 - 1e-6
     for _ in range(maxstep):
         v, vx, vz, kv = _vel_k(lvx, lvp, lvo, j, x, z, kv)
         if v <= 0.0:
@@ -708,7 +712,10 @@ def _prop_rk(ifx, ifz, ifd, ifo, ifsm, ifb, lvx, lvp, lvo, lnx, lpv, j, n_if, x0
             out_bot = False
             if near_top:
                 zt, _m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, j, x1)
-                out_top = z1 < zt - 1e-9
+                if watch_top:
+                    out_top = z1 < zt - 1e-9
+                elif z1 >= zt:
+                    watch_top = True
             if near_bot and not out_top:
                 zb, _m = _depth_slope(ifx, ifz, ifd, ifo, ifsm, j + 1, x1)
                 out_bot = z1 > zb + 1e-9

@@ -20,9 +20,10 @@ Inside a layer the velocity is linear in depth, :math:`v = a(x) + b(x) z`:
       \\sin\\theta - \\frac{\\partial v}{\\partial x}\\cos\\theta\\right), \\quad
       \\frac{dt}{ds} = \\frac{1}{v},
 
-  integrated by fourth-order Runge-Kutta with steps limited by the ray's
-  curvature (Červený 2001, *Seismic Ray Theory*, ch. 3), and a Newton search on
-  the last step so that it ends on the interface.
+  integrated by fourth-order Runge-Kutta (Červený 2001, *Seismic Ray Theory*,
+  ch. 3) with steps limited by the ray's curvature and ended just past every
+  kink of the velocity law, and a Newton search on the last step so that it
+  ends on the interface.
 
 At every interface crossing Snell's law holds in the interface's local frame;
 a ray is lost at post-critical incidence, and a phase keeps only the rays that
@@ -53,6 +54,7 @@ __all__ = [
     "TraceResult",
     "RayTracer2D",
     "trace_shot",
+    "as_trace_model",
     "RESULT_COLUMNS",
 ]
 
@@ -585,6 +587,9 @@ class TraceResult:
         depth) along the earliest ray, or None.
     n_traced : int
         Rays traced in all.
+    branches : dict
+        Every distinct ray found, not only the earliest: arrays ``receiver``
+        (index), ``theta_rad`` (take-off angle) and ``time_s``.
     """
 
     phase: str
@@ -699,24 +704,20 @@ class RayTracer2D:
             pk = _pack(self.model, wave, surf, smooth=self.smooth, smooth_tol_m=self.smooth_tol_m,
                        flatten=self.flatten, radius_m=self.radius_m,
                        flatten_bottom_m=self.flatten_bottom_m)
-            if self.flatten:
-                x, z = pk.surface
-                pk.surface = (x, z)
             self._cache[key] = pk
         return pk
 
-    def _program(self, ph: Phase) -> tuple[int, int, int]:
-        """(ptype, model target index, kernel target) of a phase."""
+    def _program(self, ph: Phase) -> tuple[int, int]:
+        """(kind of path: 0 reflection, 1 turning; model interface or layer index) of a phase."""
         tm = self.model
         if ph.kind == "reflection":
             k = tm.interface_index(ph.target)
             if k == 0:
                 raise InputError(f"phase '{ph}': '{ph.target}' is the top surface, not a reflector",
                                  key="phase", fix="name an interface below the surface")
-            return 0, k, k
+            return 0, k
         if ph.kind == "turning":
-            k = tm.layer_index(ph.target)
-            return 1, k, k
+            return 1, tm.layer_index(ph.target)
         raise InputError(f"phase '{ph}': the 2D ray tracer traces 'reflection:<interface>' and "
                          f"'turning:<layer>' phases, not '{ph.kind}'", key="phase",
                          fix="use the 1D solver (LayeredModel.traveltime on a column) or the "
@@ -764,7 +765,7 @@ class RayTracer2D:
         """
         self.n_traced = 0
         ph = parse_phase(phase)
-        prog_type, target_model, _ = self._program(ph)
+        prog_type, target_model = self._program(ph)
         xs = float(source_chainage_m)
         zs = float(source_depth_m)
         rx = np.atleast_1d(np.asarray(receiver_chainage_m, float)).ravel()

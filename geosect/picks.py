@@ -349,8 +349,8 @@ def check_picks(frame: pd.DataFrame, *, columns: dict | None = None, model: Any 
 
     # phases: translated once per distinct text
     table = {u: translate_phase(u, model) for u in pd.unique(given)}  # a loop over distinct phase strings
-    phase = given.map(lambda u: table[u][0])
-    reason = given.map(lambda u: table[u][1]).to_numpy(dtype=object)
+    phase = given.map({u: v[0] for u, v in table.items()})
+    reason = given.map({u: v[1] for u, v in table.items()}).to_numpy(dtype=object)
     bad_phase = phase.isna().to_numpy()
     for why in sorted(set(reason[bad_phase])):  # a loop over the few kinds of reason
         flags = add_flag(flags, bad_phase & (reason == why), why)

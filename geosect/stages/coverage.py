@@ -25,6 +25,9 @@ from ..report import md_escape
 __all__ = ["compute_coverage", "CoverageOutcome", "phase_label", "reflection_phases", "COVERAGE_COLUMNS"]
 
 COVERAGE_COLUMNS = ["layout", "interface", "phase", "bin_start_m", "bin_end_m", "fold"]
+#: A candidate is listed in the report only if it shortens the largest gap by at least this much, m (the report's
+#: precision, 0.1 km).
+MIN_SHRINK_M = 100.0
 SURVEY = "survey"
 
 
@@ -252,10 +255,10 @@ def _report_design(ctx: Context, out: CoverageOutcome, cs) -> None:
             sec.text(f"{md_escape(c.label)}: {why}.")
             continue
         a, b = t.attrs.get("before_m", (np.nan, np.nan))
-        best = t[t["shrink_m"] > 1e-6].head(cs.candidates)
+        best = t[t["shrink_m"] >= MIN_SHRINK_M].head(cs.candidates)
         head = f"{md_escape(c.label)}: largest gap now {_km(b - a)} km ({_range_km(a, b)} km)."
         if not len(best):
-            sec.text(head + " No single added station shrinks it.")
+            sec.text(head + f" No single added station shortens it by {MIN_SHRINK_M / 1e3:g} km or more.")
             continue
         sec.text(head)
         sec.table(["rank", "candidate", "chainage (km)", "easting", "northing", "largest gap after (km)",

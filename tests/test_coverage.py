@@ -393,3 +393,12 @@ def test_figure_draws_one_fold_line_per_interface_with_its_data(tmp_path):
     assert (tmp_path / "coverage.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert not list(tmp_path.glob(".coverage*"))  # no temporary files left behind
     assert all(isinstance(ln, Line2D) for ln in fig.axes[0].get_lines())
+    assert [ax.get_yscale() for ax in fig.axes] == ["linear", "linear"]
+
+
+def test_figure_fold_axis_turns_logarithmic_for_a_dense_spot():
+    dense = _cov("reflection:moho", np.r_[np.full(500, 12.5e3), np.arange(1e3, 40e3, 1.5e3)])
+    fig = draw_coverage([dense])
+    assert fig.axes[0].get_yscale() == "symlog"
+    line = next(ln for ln in fig.axes[0].get_lines() if ln.get_gid() == "fold:reflection:moho")
+    np.testing.assert_array_equal(line.get_ydata()[:-1], dense.fold)

@@ -5,7 +5,9 @@ interface (a stepped line over the bin edges, its y data the fold with the last
 value repeated: the survey solid, planned layouts dashed), with the
 survey's gaps longer than the gap threshold shaded.  Chainage in km on x.  Type
 sizes follow the ``double-column`` preset (:mod:`geosect.plot.fonts`); no text is
-smaller than :data:`~geosect.plot.fonts.MIN_FONT_PT`.
+smaller than :data:`~geosect.plot.fonts.MIN_FONT_PT`.  Where a dense part of the
+survey would flatten the rest (largest fold over :data:`LOG_FOLD_RATIO` times the median),
+the fold axis is linear up to 1 and logarithmic above.
 
 Artists carry ids for tests and later styling: ``fold:<phase>`` (the survey),
 ``fold:<phase>:<layout>`` (a plan), ``gap:<phase>`` (shaded gaps).
@@ -20,17 +22,21 @@ import matplotlib as mpl
 import numpy as np
 from matplotlib.figure import Figure
 from matplotlib.patches import Patch
+from matplotlib.ticker import FuncFormatter
 
 from ..coverage import InterfaceCoverage
 from ..io.atomic import atomic_path
 from .fonts import MAX_HEIGHT_MM, MM, get_preset, rc_params
 
-__all__ = ["draw_coverage", "save_coverage", "PLAN_STYLES"]
+__all__ = ["draw_coverage", "save_coverage", "PLAN_STYLES", "LOG_FOLD_RATIO"]
 
 #: Line styles and colours of planned layouts, in order (the survey is solid black).
 PLAN_STYLES: tuple[tuple[str, str], ...] = (("--", "#c0392b"), (":", "#1f6fb2"), ("-.", "#2e8b57"),
                                              ((0, (5, 1, 1, 1)), "#8e44ad"))
 _GAP_COLOUR = "#f3c9a8"
+#: The fold axis turns logarithmic (above 1) when the largest fold exceeds this many times the median of the
+#: bins with points.
+LOG_FOLD_RATIO = 20.0
 
 
 def draw_coverage(survey: Sequence[InterfaceCoverage], plans: Mapping[str, Sequence[InterfaceCoverage]] | None = None,
@@ -90,7 +96,14 @@ def _panel(ax, cov: InterfaceCoverage, plans: Mapping[str, Sequence[InterfaceCov
                 label=name, gid=f"fold:{cov.phase}:{name}", zorder=2)
         top = max(top, float(match.fold.max()) if match.fold.size else 0.0)
     ax.set_xlim(cov.edges_m[0] / 1e3, cov.edges_m[-1] / 1e3)
-    ax.set_ylim(0, max(1.0, top) * 1.08)
+    nonzero = cov.fold[cov.fold > 0]
+    if nonzero.size and top > LOG_FOLD_RATIO * float(np.median(nonzero)):
+        # a dense part of the survey would flatten the rest: linear up to 1, logarithmic above
+        ax.set_yscale("symlog", linthresh=1.0, linscale=0.5)
+        ax.yaxis.set_major_formatter(FuncFormatter(lambda v, _pos: f"{v:g}"))
+        ax.set_ylim(0, max(1.0, top) * 1.6)
+    else:
+        ax.set_ylim(0, max(1.0, top) * 1.08)
     ax.set_ylabel(f"fold (points per {bin_km:g} km)")
     ax.set_title(cov.label, loc="left")
     handles, labels = ax.get_legend_handles_labels()

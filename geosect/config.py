@@ -203,6 +203,8 @@ class PicksInput:
                         columns=("shot_id", "station_id", "phase", "time_s", "uncertainty_s"))
     reduction_velocity_kms: float = opt(8.0, "Reduction velocity of the travel-time figure, km/s.",
                                         minimum=0.0, exclusive_min=True)
+    default_uncertainty_s: float = opt(0.05, "Pick uncertainty used where the table gives none, s.", minimum=0.0,
+                                       exclusive_min=True)
 
 
 @dataclass

@@ -60,6 +60,7 @@ DEMO_FILES: tuple[str, ...] = (
     "horizons/reflector_b_twt.csv",
     "horizons/deep_boundary_depth.tif",
     "model.toml",
+    "picks.csv",
 )
 
 _WORK_EPSG = 32624  # UTM zone 24N
@@ -670,6 +671,7 @@ def _toml_text() -> str:
 #   [hypocentres]  earthquake catalogue projected into the section
 #   [[horizons]]   interpreted horizons: in depth, in two-way time, or as a depth grid
 #   [model]        the velocity model (model.toml) and the Earth's curvature for 1D times
+#   [picks]        travel-time picks compared with the model (synthetic here)
 #   [rays]         phases to trace and the dominant frequency for Fresnel zones
 #   [section]      half-width of the swath projected into the section
 #   [map]          chainage ticks on the map
@@ -759,6 +761,16 @@ kind = "depth-grid"
 [model]
 file = "model.toml"          # 2D layered model (geosect's model file layout, km and km/s)
 earth = "auto"               # spherical Earth for offsets over 100 km
+
+[picks]
+file = "picks.csv"           # synthetic travel-time picks (Pg, PmP, Pn) of the borehole shots
+reduction_velocity_kms = 8.0 # reduction velocity of the travel-time figure
+[picks.columns]
+shot_id = "shot"
+station_id = "station"
+phase = "phase"
+time_s = "time_s"
+uncertainty_s = "sigma_s"
 
 [rays]
 phases = ["reflection:conrad", "reflection:moho", "head:moho", "direct"]
@@ -966,6 +978,10 @@ def write_demo(directory: str | os.PathLike, *, overwrite: bool = False) -> list
         "units",
         "Geological units of the Tarvanne Range (synthetic, invented names and ages)",
     )
+    # synthetic picks: our own solvers' times in the sample model plus noise (needs the files above on disk)
+    from .demo_picks import synthetic_picks_csv
+
+    written["picks.csv"] = write_bytes(root / "picks.csv", synthetic_picks_csv(root).encode("utf-8"))
     return [written[name] for name in DEMO_FILES]
 
 

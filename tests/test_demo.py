@@ -174,7 +174,7 @@ def test_project_file_schema(project):
     cfg = tomllib.loads((project / "geosect.toml").read_text())
     assert set(cfg) == {
         "project", "stations", "shots", "line", "binning", "dem", "geology", "faults",
-        "hypocentres", "horizons", "model", "rays", "section", "map",
+        "hypocentres", "horizons", "model", "picks", "rays", "section", "map",
     }
     assert cfg["project"] == {"name": "Tarvanne Range transect (synthetic sample)", "crs": "auto", "output": "out"}
     assert cfg["stations"]["columns"] == {"id": "code", "x": "lon", "y": "lat", "elevation": "elev_m"}
@@ -193,6 +193,7 @@ def test_project_file_schema(project):
     assert [h["kind"] for h in cfg["horizons"]] == ["chainage-depth", "chainage-twt", "depth-grid"]
     assert cfg["rays"] == {
         "phases": ["reflection:conrad", "reflection:moho", "head:moho", "direct"], "frequency_hz": 8.0,
+        "grid_spacing_m": 1000.0,
     }
     assert cfg["section"] == {"swath_km": 15.0} and cfg["map"] == {"chainage_tick_km": 10.0}
     # every file it names exists, and its columns are in the files

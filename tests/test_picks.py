@@ -394,10 +394,9 @@ def test_synthetic_sample_picks(tmp_path: Path) -> None:
     from geosect.model import read_model
 
     root = tmp_path / "sample"
-    write_demo(root)
-    # the project file already names picks.csv, which does not exist yet
-    with open(root / "geosect.toml", "a", encoding="utf-8") as fh:
-        fh.write("\n" + PICKS_TOML)
+    write_demo(root)  # writes picks.csv and names it in geosect.toml
+    assert tomllib.loads((root / "geosect.toml").read_text())["picks"] == tomllib.loads(PICKS_TOML)["picks"]
+    (root / "picks.csv").unlink()  # the project file names picks.csv, which does not exist now
     text = synthetic_picks_csv(root)
     assert not list(root.glob(".geosect-picks-*"))  # the temporary project file is gone
     (root / "picks.csv").write_text(text)

@@ -174,7 +174,7 @@ def compare_picks(ctx: Context) -> None:
     shots = ctx.artefacts["placed_shots"]
     stations = ctx.artefacts["placed_stations"]
     picks = read_picks(s.picks.file, columns=s.picks.columns, delimiter=s.picks.delimiter, model=model,
-                       shot_ids=shots["id"], station_ids=stations["id"], default_uncertainty_s=DEFAULT_UNCERTAINTY_S)
+                       shot_ids=shots["id"], station_ids=stations["id"], default_uncertainty_s=_default_uncertainty(ctx))
     rays = ctx.artefacts["rays"]
     picked_shots = set(picks.loc[picks["status"] == "ok", "shot_id"])
     base = rays[rays["shot_id"].astype(str).isin(picked_shots)] if len(rays) else rays
@@ -245,3 +245,8 @@ def _report(ctx: Context, picks, table, model, extra, written, vred, distance) -
                   [(r.row, md_escape(r.shot_id), md_escape(r.station_id), md_escape(phase_label(r.phase, model)),
                     _fmt_s(r.time_s), _fmt_s(r.model_time_s), _fmt_s(r.residual_s), _fmt_s(r.normalised_residual, 1))
                    for r in top.itertuples(index=False)], escape=False)
+
+
+def _default_uncertainty(ctx: Context) -> float:
+    """The default pick uncertainty from the project file ([picks] default_uncertainty_s), s."""
+    return float(getattr(ctx.settings.picks, "default_uncertainty_s", DEFAULT_UNCERTAINTY_S))

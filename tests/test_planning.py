@@ -197,7 +197,7 @@ def test_candidates_are_solved_in_one_call_per_phase(monkeypatch):
     assert len(out["reflection:moho"]) == 11
 
 
-def _run_stage(tmp_path, monkeypatch, line, shots, stations, model, plans, phases=("reflection:moho",)):
+def _run_stage(tmp_path, line, shots, stations, model, plans, phases=("reflection:moho",)):
     from geosect.stages import rays
     from geosect.stages.coverage import compute_coverage
 
@@ -216,7 +216,7 @@ def _run_stage(tmp_path, monkeypatch, line, shots, stations, model, plans, phase
     return ctx
 
 
-def test_a_plan_equal_to_the_survey_gets_the_survey_numbers(tmp_path, monkeypatch):
+def test_a_plan_equal_to_the_survey_gets_the_survey_numbers(tmp_path):
     # The same points through the rays stage (survey) and through planning must give the same coverage; the line
     # is 130 km long so that some shots are solved on a spherical Earth ('auto') in both.
     line = _line(130.0)
@@ -224,7 +224,7 @@ def test_a_plan_equal_to_the_survey_gets_the_survey_numbers(tmp_path, monkeypatc
     itfs = [Interface("surface", [0.0], [0.0]), Interface("moho", [0.0, 130e3], [30e3, 40e3], role="moho")]
     model = LayeredModel(itfs, [Layer("crust", 6000.0, 6600.0, vpvs=1.73),
                                 Layer("mantle", 8000.0, None, vp_gradient_per_s=0.001, vpvs=1.78)])
-    ctx = _run_stage(tmp_path, monkeypatch, line, lay.shots, lay.stations, model, [])
+    ctx = _run_stage(tmp_path, line, lay.shots, lay.stations, model, [])
     out = ctx.artefacts["coverage"]
     survey = out.survey["reflection:moho"]
     mine = evaluate_layout(lay, model, ["reflection:moho"], line, UTM33, edges_m=out.edges_m, gap_m=5e3)
@@ -239,13 +239,13 @@ def test_a_plan_equal_to_the_survey_gets_the_survey_numbers(tmp_path, monkeypatc
     np.testing.assert_array_equal(again["reflection:moho"].fold, survey.fold)
 
 
-def test_plans_are_compared_side_by_side_in_the_report(tmp_path, monkeypatch):
+def test_plans_are_compared_side_by_side_in_the_report(tmp_path):
     line = _line(60.0)
     shots = _points(line, [0.0, 60.0], "S")
     stations = _points(line, np.arange(1.0, 20.0, 2.0), "R")
     plans = [PlanInput(name="dense", station_spacing_km=1.0, shot_spacing_km=10.0),
              PlanInput(name="short", station_spacing_km=2.0, shot_spacing_km=5.0, start_km=20.0, end_km=30.0)]
-    ctx = _run_stage(tmp_path, monkeypatch, line, shots, stations, _flat(), plans)
+    ctx = _run_stage(tmp_path, line, shots, stations, _flat(), plans)
     text = ctx.report.render()
     assert "## Planned layouts" in text
     table = [ln for ln in text.splitlines() if ln.startswith("| ")]

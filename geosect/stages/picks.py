@@ -212,8 +212,8 @@ def _report(ctx: Context, picks, table, model, extra, written, vred, distance) -
             "figure distance": "signed offset (negative towards lower chainage)" if distance == "offset"
                                else "along-line distance from the shot (receiver minus shot chainage)",
             "figures": ", ".join(md_escape(p.name) for p in written if p.suffix == ".png") or "-"})
-    sec.text(f"Picks without an uncertainty take {DEFAULT_UNCERTAINTY_S:g} s (geosect's default; the project "
-             "file has no key for it)." + (" Some rows had an empty uncertainty and were flagged "
+    sec.text(f"Picks without an uncertainty take {_default_uncertainty(ctx):g} s ([picks] "
+             "default_uncertainty_s)." + (" Some rows had an empty uncertainty and were flagged "
                                             "default_uncertainty." if empty_unc else ""))
     if len(extra):
         ph = ", ".join(md_escape(p) for p in pd.unique(extra["phase"]))

@@ -28,7 +28,7 @@ RAY_COLUMNS = ["shot_id", "station_id", "phase", "offset_m", "line_offset_m", "m
                "point_chainage_m", "point_depth_m", "point_easting", "point_northing", "point_lon", "point_lat",
                "fresnel_inline_m", "fresnel_crossline_m", "status", "flags"]
 EXTRA_COLUMNS = ["azimuth_deg", "midpoint_easting", "midpoint_northing", "midpoint_crossline_m", "incidence_deg",
-                 "ray_parameter_s_per_km", "method"]
+                 "ray_parameter_s_per_km", "elevation_static_s", "method"]
 
 #: Offsets beyond which 'auto' uses the spherical Earth for 1D times (common practice, no source: at 100 km the
 #: flat-Earth error of a Moho head wave is a few tens of ms, comparable to a good pick's uncertainty).
@@ -95,31 +95,6 @@ def _solve_1d(model, phase, offset, zs, zr, spherical):
     return model.solve(offset, phase, source_depth_m=zs, receiver_depth_m=zr, spherical=spherical)
 
 
-def _solve_columns(model, phase, geom, zs, zr, spherical, group_m: float = 2000.0):
-    """A 2D model solved as 1D columns under each pair's midpoint (grouped by midpoint chainage).
-
-    This is the layered-earth approximation under the midpoint: exact where the model is laterally uniform
-    over the ray's footprint; the rows are flagged ``column_at_midpoint``.
-    """
-    from ..model.oned import RaySolution  # noqa: F401  (documented return type)
-
-    mch = geom["midpoint_chainage_m"].to_numpy()
-    key = np.floor(mch / group_m).astype(np.int64)
-    n = len(mch)
-    out = {k: np.full(n, np.nan) for k in ("time_s", "p_s_per_m", "point_distance_m", "point_depth_m",
-                                           "incidence_deg")}
-    status = np.full(n, "no_ray", dtype=object)
-    off = geom["offset_m"].to_numpy()
-    for k in np.unique(key):  # a loop over groups of midpoints (columns), not over pairs
-        sel = np.flatnonzero(key == k)
-        col = model.column(float((k + 0.5) * group_m))
-        sol = col.solve(off[sel], phase, source_depth_m=zs[sel], receiver_depth_m=zr[sel], spherical=spherical)
-        for name in out:
-            out[name][sel] = getattr(sol, name)
-        status[sel] = sol.status
-    return out, status
-
-
 def _join(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Join two arrays of ';'-separated flags element by element."""
     a = np.asarray(a, dtype=object)
@@ -157,11 +132,17 @@ def _solve_2d(ctx: Context, model, p: str, ph, geom: pd.DataFrame, zs, zr, spher
     multistage eikonal solver for direct and head waves and first arrivals.
 
     Sources and receivers are placed in the section plane at their chainage (the in-plane offset is the
-    along-line offset); their distance from the line is carried by the ``projected_far`` flag.
+    along-line offset); their distance from the line is carried by the ``projected_far`` flag.  With the
+    DEM on top of the model they are put on the model's surface at that chainage (a borehole shot at its hole
+    depth below it), and the difference between their own ground height and the surface is corrected by an
+    elevation static, ``Δh·cos(i)/v`` at each end (``i`` the angle of the ray from the vertical there, ``v``
+    the velocity at the surface; common practice of static corrections, no source), which is added to the
+    time and kept in ``elevation_static_s``.
     """
     n = len(geom)
     vals = {k: np.full(n, np.nan) for k in ("time_s", "p_s_per_m", "point_chainage_m", "point_depth_m",
                                            "incidence_deg", "point_distance_m")}
+    vals["elevation_static_s"] = np.zeros(n)
     status = np.full(n, "no_ray", dtype=object)
     flags = np.full(n, "", dtype=object)
     cs = geom["source_chainage_m"].to_numpy()
@@ -177,6 +158,15 @@ def _solve_2d(ctx: Context, model, p: str, ph, geom: pd.DataFrame, zs, zr, spher
     else:
         method = "2d_eikonal_multistage"
         from ..model.eikonal import phase_times
+    on_dem = model.top == "dem"
+    zs_true, zr_true = np.asarray(zs, float), np.asarray(zr, float)
+    if on_dem:
+        surf_name = model.interface_names[0]
+        ground = _ground_depths(ctx, geom)  # the shot's own ground, depth below the datum
+        zs = np.asarray(model.interface_depth(surf_name, cs), float) + np.maximum(zs_true - ground, 0.0)
+        zr = np.asarray(model.interface_depth(surf_name, cr), float)
+        v_s = np.asarray(model.velocity(cs, zs + 1.0, wave=ph.wave), float)
+        v_r = np.asarray(model.velocity(cr, zr + 1.0, wave=ph.wave), float)
     counter = ctx.artefacts.get("_counter")
     for a, b in zip(bounds[:-1], bounds[1:]):  # a loop over shots
         if counter is not None:
@@ -195,6 +185,11 @@ def _solve_2d(ctx: Context, model, p: str, ph, geom: pd.DataFrame, zs, zr, spher
             vals["incidence_deg"][sel] = res.incidence_deg
             status[sel] = res.status
             flags[sel] = res.flags
+            if on_dem:
+                cos_s = np.cos(np.radians(res.takeoff_deg))
+                cos_r = np.cos(np.radians(res.emergence_deg))
+                vals["elevation_static_s"][sel] = ((zs[sel] - zs_true[sel]) * cos_s / v_s[sel]
+                                                   + (zr[sel] - zr_true[sel]) * cos_r / v_r[sel])
             if want and res.paths is not None:
                 step = max(1, len(sel) // 40)  # at most about 40 rays per shot and phase for the figure
                 for j in range(0, len(sel), step):
@@ -206,7 +201,26 @@ def _solve_2d(ctx: Context, model, p: str, ph, geom: pd.DataFrame, zs, zr, spher
                                  spacing_m=ctx.settings.rays.grid_spacing_m)
             vals["time_s"][sel] = t
             status[sel] = stt
+            if on_dem:
+                # the angle at each end from the apparent slowness dT/dx along the receivers of this shot
+                order = np.argsort(cr[sel])
+                slow = np.full(sel.size, np.nan)
+                if sel.size > 1:
+                    with np.errstate(invalid="ignore", divide="ignore"):
+                        slow[order] = np.abs(np.gradient(t[order], cr[sel][order]))
+                slow = np.where(np.isfinite(slow), slow, 0.0)
+                cos_s = np.sqrt(np.clip(1 - (v_s[sel] * slow) ** 2, 0.0, 1.0))
+                cos_r = np.sqrt(np.clip(1 - (v_r[sel] * slow) ** 2, 0.0, 1.0))
+                vals["elevation_static_s"][sel] = ((zs[sel] - zs_true[sel]) * cos_s / v_s[sel]
+                                                   + (zr[sel] - zr_true[sel]) * cos_r / v_r[sel])
+    vals["time_s"] = vals["time_s"] + vals["elevation_static_s"]
     return vals, status, flags, method, paths
+
+
+def _ground_depths(ctx: Context, geom: pd.DataFrame) -> np.ndarray:
+    """Depth below the datum of each pair's shot ground (minus its elevation), m."""
+    shots = ctx.artefacts["placed_shots"].drop_duplicates("id").set_index("id")
+    return _receiver_depth(shots.reset_index())[shots.index.get_indexer(geom["shot_id"])]
 
 
 def _source_depths(shots: pd.DataFrame) -> np.ndarray:
@@ -309,6 +323,7 @@ def _phase_rows(ctx, model, p, ph, geom, ends, zs, zr, spherical, crs) -> pd.Dat
         sol = _solve_1d(model, p, np.where(active, off, 0.0), zs, zr, spherical)
         vals = {k: getattr(sol, k) for k in ("time_s", "p_s_per_m", "point_distance_m", "point_depth_m",
                                               "incidence_deg")}
+        vals["elevation_static_s"] = np.zeros(n)  # 1D: sources and receivers at their own depths, no static
         st = sol.status
         method = "1d_exact_spherical" if spherical else "1d_exact"
     else:
@@ -368,7 +383,7 @@ def _phase_rows(ctx, model, p, ph, geom, ends, zs, zr, spherical, crs) -> pd.Dat
         "azimuth_deg": geom["azimuth_deg"], "midpoint_easting": geom["midpoint_easting"],
         "midpoint_northing": geom["midpoint_northing"], "midpoint_crossline_m": geom["midpoint_crossline_m"],
         "incidence_deg": vals["incidence_deg"], "ray_parameter_s_per_km": vals["p_s_per_m"] * 1e3,
-        "method": method,
+        "elevation_static_s": vals["elevation_static_s"], "method": method,
     })
 
 

@@ -84,27 +84,37 @@ def flatten_velocity(v_ms, depth_m, radius_m: float = EARTH_RADIUS_M) -> np.ndar
     return np.asarray(v_ms, dtype=float) * radius_m / (radius_m - np.asarray(depth_m, dtype=float))
 
 
-def n_sublayers(thickness_f_m: float, v_f_min_ms: float, gradient_per_s: float, v_f_max_ms: float,
-                radius_m: float = EARTH_RADIUS_M, tolerance: float = FLATTENING_TOLERANCE) -> int:
+def n_sublayers(thickness_f_m, v_f_ms, gradient_per_s, radius_m: float = EARTH_RADIUS_M,
+                tolerance: float = FLATTENING_TOLERANCE) -> int:
     """Number of sub-layers for a flattened layer.
 
     Parameters
     ----------
-    thickness_f_m : float
-        Largest flattened thickness of the layer, metres.
-    v_f_min_ms, v_f_max_ms : float
-        Smallest and largest flattened velocity in the layer, m/s.
-    gradient_per_s : float
-        Largest absolute true-depth gradient dv/dz in the layer, 1/s.
+    thickness_f_m : array_like
+        Flattened thickness of the layer at some chainages, metres.
+    v_f_ms : array_like
+        Smallest flattened velocity in the layer at the same chainages, m/s.
+    gradient_per_s : array_like
+        Absolute true-depth gradient dv/dz there, 1/s.
 
     Returns
     -------
     int
-        Sub-layers such that :math:`h^2 \\max|v_f''| / (8 \\min v_f) \\le` ``tolerance``,
-        with :math:`v_f'' = (b + v_f/R)/R`.
+        The fewest even sub-layers such that, at every chainage given,
+        :math:`h^2 |v_f''| / (8 v_f) \\le` ``tolerance`` with
+        :math:`v_f'' = (b + v_f/R)/R` and :math:`h` the local sub-layer
+        thickness (a thin wedge with a steep gradient needs few).
+
+    Examples
+    --------
+    >>> n_sublayers(20e3, 5800.0, 0.0)   # a 20 km constant crustal layer
+    4
     """
-    if not thickness_f_m > 0:
-        return 1
-    curv = (abs(gradient_per_s) + v_f_max_ms / radius_m) / radius_m
-    h = np.sqrt(8.0 * tolerance * v_f_min_ms / curv)
-    return int(min(max(np.ceil(thickness_f_m / h), 1), _MAX_SUB))
+    H = np.atleast_1d(np.asarray(thickness_f_m, float))
+    v = np.broadcast_to(np.asarray(v_f_ms, float), H.shape)
+    b = np.broadcast_to(np.abs(np.asarray(gradient_per_s, float)), H.shape)
+    curv = (b + v / radius_m) / radius_m
+    with np.errstate(invalid="ignore", divide="ignore"):
+        need = H * np.sqrt(curv / (8.0 * tolerance * v))
+    need = np.where(np.isfinite(need) & (H > 0), need, 0.0)
+    return int(min(max(np.ceil(need.max()), 1), _MAX_SUB))

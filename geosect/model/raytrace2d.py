@@ -168,6 +168,11 @@ class TraceModel:
         Node arrays of every interface, metres; constant beyond the end nodes.
     vp, vs : sequence of LayerLaw
         P and S velocity laws per layer (``vs`` may be None: no S phases).
+    bound : sequence of bool, optional
+        Per layer: its laws' reference depths are the layer's own interfaces
+        (top and bottom; the half-space's top), as in a LayeredModel.  With
+        ``smooth`` the tracer then moves them with the smoothed interfaces, so
+        that velocity and geometry stay consistent.  Default all False.
     """
 
     interface_names: list[str]
@@ -175,6 +180,7 @@ class TraceModel:
     interfaces: list[tuple[np.ndarray, np.ndarray]]
     vp: list[LayerLaw]
     vs: list[LayerLaw] | None = None
+    bound: list[bool] | None = None
 
     def __post_init__(self) -> None:
         n = len(self.layer_names)
@@ -239,7 +245,8 @@ class TraceModel:
                     vb = vt + 1000.0 * g
                 law = LayerLaw(x, vt, vb, zt, zb)
                 out.append(law if law.is_lateral else law.node(0))
-        return cls(list(model.interface_names), list(model.layer_names), itfs, vp, vs)
+        return cls(list(model.interface_names), list(model.layer_names), itfs, vp, vs,
+                   [True] * n)
 
     def velocity(self, chainage_m, depth_m, wave: str = "P") -> np.ndarray:
         """Velocity (m/s) at points (m), the layer chosen as the model does it.
@@ -389,20 +396,32 @@ def _pack(tm: TraceModel, wave: str, surface: tuple[np.ndarray, np.ndarray], *, 
     sx, sz = surface
     n = len(laws)
     # interfaces in true depth: surface on top, internal ones smoothed and kept below it
+    # each interface is kept below the one above it (the recording surface first):
+    # outcrops become pinch-outs, and independently smoothed interfaces that touch
+    # cannot cross
     polys = [(sx, sz, np.gradient(sz, sx) if sx.size > 1 else np.zeros(1), False)]
     for c, z in tm.interfaces[1:]:
         if smooth:
             c2, z2, d2 = _smooth(c, z, smooth_tol_m)
         else:
             c2, z2, d2 = c, z, np.zeros(c.size)
-        x, zc = _max_envelope(c2, z2, sx, sz)
-        d = np.interp(x, c2, d2)
+        ax, az = polys[-1][0], polys[-1][1]
+        x, zc = _max_envelope(c2, z2, ax, az)
+        # node slopes of the spline; flat beyond its end nodes, as the interface is
+        d = np.where((x >= c2[0]) & (x <= c2[-1]), np.interp(x, c2, d2), 0.0)
         if smooth:
-            below = np.interp(x, c2, z2) >= np.interp(x, sx, sz)
+            below = np.interp(x, c2, z2) >= np.interp(x, ax, az)
             seg = np.gradient(zc, x) if x.size > 1 else np.zeros(1)
             d = np.where(below, d, seg)
         polys.append((x, zc, d, smooth))
     layer_laws = list(laws)
+    if smooth and tm.bound is not None:
+        # laws tied to the interfaces follow them to their smoothed shapes
+        for j, law in enumerate(layer_laws):
+            if tm.bound[j]:
+                top = tm.interfaces[0] if j == 0 else polys[j][:2]
+                bot = polys[j + 1][:2] if j + 1 < n else None
+                layer_laws[j] = _rebind(law, top, bot)
     real = [True] * n
     group = list(range(n))
     iface = list(range(n))
@@ -440,6 +459,25 @@ def _pack(tm: TraceModel, wave: str, surface: tuple[np.ndarray, np.ndarray], *, 
                    (s_polys[0], s_polys[1]), flatten, radius_m, max(vmin, 1.0))
 
 
+def _rebind(law: LayerLaw, top, bottom) -> LayerLaw:
+    """The law with its reference depths moved to new top and bottom polylines.
+
+    Velocities at the top and bottom keep their values along chainage; a
+    half-space (``bottom`` None) keeps its gradient below the new top.
+    """
+    x = np.union1d(np.union1d(law.chainage_m, top[0]), [] if bottom is None else bottom[0])
+    vt = np.interp(x, law.chainage_m, law.v_top_ms)
+    vb = np.interp(x, law.chainage_m, law.v_bottom_ms)
+    zt = np.interp(x, *top)
+    if bottom is None:
+        span = np.interp(x, law.chainage_m, law.z_bottom_m - law.z_top_m)
+        zb = zt + span
+    else:
+        zb = np.interp(x, *bottom)
+    out = LayerLaw(x, vt, vb, zt, zb)
+    return out if out.is_lateral else out.node(0)
+
+
 def _kinks(law: LayerLaw, tol: float) -> np.ndarray:
     """Nodes of a law where dv/dx jumps by more than ``tol * v`` (1/m) at its reference depths."""
     c = law.chainage_m
@@ -452,7 +490,8 @@ def _kinks(law: LayerLaw, tol: float) -> np.ndarray:
     def slope(xa, xb):
         a0, b0 = law.ab(xa)
         a1, b1 = law.ab(xb)
-        return (a1 - a0) / (xb - xa), (b1 - b0) / (xb - xa)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return (a1 - a0) / (xb - xa), (b1 - b0) / (xb - xa)
 
     al, bl = slope(c - eps_l, c - 0.5 * eps_l)
     ar, br = slope(c + 0.5 * eps_r, c + eps_r)
@@ -506,9 +545,7 @@ def _flatten(polys, laws, radius_m: float, bottom_m: float):
         a, b = law.ab(x)
         vft = flatten_velocity(a + b * zt, zt, R)
         vfb = flatten_velocity(a + b * zb, zb, R)
-        nsub = n_sublayers(float(np.max(fb - ft)), float(min(vft.min(), vfb.min())),
-                           float(np.abs(b).max()), float(max(vft.max(), vfb.max())), R,
-                           FLATTENING_TOLERANCE)
+        nsub = n_sublayers(fb - ft, np.minimum(vft, vfb), b, R, FLATTENING_TOLERANCE)
         # the real top interface, flattened at its own nodes
         iface.append(len(out_polys))
         fz = flatten_depth(tz, R)
@@ -581,7 +618,9 @@ class TraceResult:
         ``'bad_source'``.
     flags : numpy.ndarray of str
         ';'-joined warnings: ``multiple_branches``, ``receiver_off_surface``,
-        ``source_below_target``.
+        ``source_below_target``, ``fan_budget_reached`` (the fan stopped
+        refining at 40 rays per first-fan ray plus 10 per receiver: rays may be
+        missing where the emergence is very irregular).
     paths : list or None
         With ``return_paths``: per receiver an (n, 2) array of (chainage,
         depth) along the earliest ray, or None.
@@ -827,7 +866,12 @@ class RayTracer2D:
         # ray of a symmetric set-up hits a node (a kink) exactly
         th = np.clip(th + 0.0137 * (th[1] - th[0]), -thmax, thmax)
         out = self._shoot(pk, prog, src_layer, xs, zs, th, prm)[0]
+        self.budget_hit = False
+        max_fan = 40 * th.size + 10 * rs.size
         for _ in range(max_levels):
+            if th.size > max_fan:
+                self.budget_hit = True
+                break
             ok = out[:, 0] == 0
             X = out[:, 1]
             both = ok[:-1] & ok[1:]
@@ -1057,6 +1101,9 @@ class RayTracer2D:
                         zz = unflatten_depth(zz, pk.radius_m)
                     paths[r] = np.column_stack([ppx[k, :ppn[k]], zz])
                 res.paths = paths
+        if getattr(self, "budget_hit", False):
+            for r in np.flatnonzero(good):
+                flags[r].append("fan_budget_reached")
         res.flags[:] = [";".join(f) for f in flags]
 
 

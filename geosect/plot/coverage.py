@@ -25,8 +25,7 @@ from matplotlib.patches import Patch
 from matplotlib.ticker import FuncFormatter
 
 from ..coverage import InterfaceCoverage
-from ..io.atomic import atomic_path
-from .fonts import MAX_HEIGHT_MM, MM, get_preset, rc_params
+from .fonts import MAX_HEIGHT_MM, MM, get_preset, rc_params, save_png_svg
 
 __all__ = ["draw_coverage", "save_coverage", "PLAN_STYLES", "LOG_FOLD_RATIO"]
 
@@ -119,13 +118,4 @@ def save_coverage(fig: Figure, png: str | Path, svg: str | Path | None = None, *
 
     Returns the paths written.
     """
-    out = []
-    with mpl.rc_context(rc_params(get_preset(preset))):
-        for target, fmt, kw in ((png, "png", dict(dpi=300, metadata={"Title": title, "Software": "geosect"})),
-                                (svg, "svg", dict(metadata={"Title": title, "Creator": "geosect"}))):
-            if target is None:
-                continue
-            with atomic_path(target) as tmp:
-                fig.savefig(tmp, format=fmt, facecolor="white", **kw)
-            out.append(Path(target))
-    return out
+    return save_png_svg(fig, png, svg, preset=preset, title=title)

@@ -106,3 +106,28 @@ def rc_params(preset: Preset) -> dict[str, Any]:
         "savefig.facecolor": "white",
         "figure.facecolor": "white",
     }
+
+
+def save_png_svg(fig, png, svg=None, *, preset: str = "double-column", title: str = "geosect") -> list:
+    """Write a figure as PNG (300 dpi) and SVG (text kept as text), each atomically (temporary file, then rename).
+
+    The figure is laid out once, so both formats show the same layout.  Returns the paths written.
+    """
+    import matplotlib as mpl
+    from pathlib import Path
+
+    from ..io.atomic import atomic_path
+
+    out = []
+    with mpl.rc_context(rc_params(get_preset(preset))):
+        if fig.get_layout_engine() is not None:  # lay the figure out once for both formats
+            fig.draw_without_rendering()
+            fig.set_layout_engine("none")
+        for target, fmt, kw in ((png, "png", dict(dpi=300, metadata={"Title": title, "Software": "geosect"})),
+                                (svg, "svg", dict(metadata={"Title": title, "Creator": "geosect"}))):
+            if target is None:
+                continue
+            with atomic_path(target) as tmp:
+                fig.savefig(tmp, format=fmt, facecolor="white", **kw)
+            out.append(Path(target))
+    return out

@@ -29,10 +29,9 @@ import pandas as pd
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
-from ..io.atomic import atomic_path
 from ..picks import _canonical_series, phase_label, reduced_time
 from .colours import phase_colours
-from .fonts import MAX_HEIGHT_MM, MM, get_preset, rc_params
+from .fonts import MAX_HEIGHT_MM, MM, get_preset, rc_params, save_png_svg
 
 __all__ = ["draw_traveltimes", "save_traveltimes", "save_traveltime_pages", "signed_distance", "shots_with_picks",
            "reduction_label", "DISTANCES", "PER_PAGE"]
@@ -244,19 +243,7 @@ def save_traveltimes(fig: Figure, png: str | Path, svg: str | Path | None = None
 
     Returns the paths written.
     """
-    out = []
-    with mpl.rc_context(rc_params(get_preset(preset))):
-        if fig.get_layout_engine() is not None:  # lay the figure out once for both formats
-            fig.draw_without_rendering()
-            fig.set_layout_engine("none")
-        for target, fmt, kw in ((png, "png", dict(dpi=300, metadata={"Title": title, "Software": "geosect"})),
-                                (svg, "svg", dict(metadata={"Title": title, "Creator": "geosect"}))):
-            if target is None:
-                continue
-            with atomic_path(target) as tmp:
-                fig.savefig(tmp, format=fmt, facecolor="white", **kw)
-            out.append(Path(target))
-    return out
+    return save_png_svg(fig, png, svg, preset=preset, title=title)
 
 
 def save_traveltime_pages(table: pd.DataFrame, model_times: pd.DataFrame | None, png: str | Path,

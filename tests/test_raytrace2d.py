@@ -350,7 +350,9 @@ def test_reciprocity(crust_tracer, i, j, ph):
     b = tr.trace(x[j], z[j], x[i:i + 1], z[i:i + 1], ph, n_rays=61, tol_m=0.05)
     if a.status[0] == "ok" and b.status[0] == "ok":
         assert a.time_s[0] == pytest.approx(b.time_s[0], abs=2e-6)
-        assert a.point_chainage_m[0] == pytest.approx(b.point_chainage_m[0], abs=5.0)
+        # the reflection point is not stationary like the time: with the default
+        # 2 km Runge-Kutta steps it moves by metres over a 60 km path
+        assert a.point_chainage_m[0] == pytest.approx(b.point_chainage_m[0], abs=15.0)
 
 
 def test_receivers_on_steep_topography_have_their_own_elevation(crust_tracer):

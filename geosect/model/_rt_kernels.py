@@ -669,7 +669,9 @@ def _prop_rk(ifx, ifz, ifd, ifo, ifsm, ifb, lvx, lvp, lvo, lnx, lpv, j, n_if, x0
         g = math.sqrt(vx * vx + vz * vz)
         h = hmax
         if g > 0.0 and alpha * v / g < h:
-            h = alpha * v / g
+            # (not below a metre: near the tip of a pinched layer whose velocity
+            # changes across it the gradient grows without bound)
+            h = max(alpha * v / g, min(1.0, hmax))
         # end the step just past the next kink of the law (a node where its
         # lateral derivative jumps): RK4 keeps its order only where v is smooth
         if cut and nvel > 1:

@@ -328,6 +328,11 @@ def test_adapter_reproduces_model_velocity():
         ref = m.velocity(x, z, wave)
         good = np.isfinite(ref)
         np.testing.assert_allclose(tm.velocity(x, z, wave)[good], ref[good], rtol=1e-12)
+    # S velocities given directly rather than by vp/vs
+    m2 = LayeredModel.flat([0.0, 3000.0, 9000.0], [4000.0, 5500.0, 7000.0],
+                           vs_ms=[2300.0, 3100.0, 4000.0], gradients=[0.3, 0.1, 0.02])
+    tm2 = TraceModel.from_model(m2)
+    np.testing.assert_allclose(tm2.velocity(x, z, "S"), m2.velocity(x, z, "S"), rtol=1e-12)
 
 
 @pytest.fixture(scope="module")

@@ -809,7 +809,6 @@ class RayTracer2D:
         zs = float(source_depth_m)
         rx = np.atleast_1d(np.asarray(receiver_chainage_m, float)).ravel()
         rz = np.broadcast_to(np.asarray(receiver_depth_m, float), rx.shape).astype(float)
-        n = rx.size
         res = _empty_result(str(ph), xs, zs, rx, rz, return_paths)
         good = np.isfinite(rx) & np.isfinite(rz)
         res.status[~good] = "bad_position"

@@ -340,13 +340,18 @@ def _max_envelope(xa, za, xb, zb):
 
 
 def _smooth(c, z, tol_m: float, max_nodes: int = 20000):
-    """PCHIP spline through the nodes, resampled so the chords stay within tol_m; node slopes."""
-    if c.size < 3:
-        slope = np.full(c.size, 0.0 if c.size < 2 else (z[1] - z[0]) / (c[1] - c[0]))
-        return c, z, slope
+    """PCHIP spline through the nodes, resampled so the chords stay within tol_m; node slopes.
+
+    The interface is flat beyond its end nodes; the spline is fitted with that
+    flat continuation (a node one span further out on either side), so that
+    its slope is zero at the end nodes and the surface is smooth there too.
+    """
+    if c.size < 2:
+        return c, z, np.zeros(c.size)
     from scipy.interpolate import PchipInterpolator
 
-    f = PchipInterpolator(c, z)
+    span = max(c[-1] - c[0], 1000.0)
+    f = PchipInterpolator(np.r_[c[0] - span, c, c[-1] + span], np.r_[z[0], z, z[-1]])
     d2 = f.derivative(2)
     h = np.diff(c)
     curv = np.maximum(np.abs(d2(c[:-1] + 1e-6 * h)), np.abs(d2(c[1:] - 1e-6 * h)))
@@ -730,6 +735,8 @@ class RayTracer2D:
         rx, rz = rx[good], rz[good]
         ux, inv = np.unique(rx, return_inverse=True)
         res = np.bincount(inv, rz - np.interp(rx, tx, tz)) / np.bincount(inv)
+        if np.all(np.abs(res) < 1e-3):
+            return tx, tz  # the points lie on the model top: it is the surface (and one cache entry)
         x = np.union1d(tx, ux)
         return x, np.interp(x, tx, tz) + np.interp(x, ux, res)
 

@@ -305,6 +305,8 @@ def compute_rays(ctx: Context) -> None:
             ctx.report.section("Rays").text("rays.csv has more than a million rows; install pyarrow "
                                             "(`pip install geosect[parquet]`) to get rays.parquet too.")
     _report(ctx, rp, counts, phases, spherical_used, recorded)
+    if not model.is_1d:
+        _compare_methods(ctx, model, [p for p in phases if parsed[p].kind == "reflection"], shots, stations)
 
 
 def _phase_rows(ctx, model, p, ph, geom, ends, zs, zr, spherical, crs) -> pd.DataFrame:
@@ -385,6 +387,51 @@ def _phase_rows(ctx, model, p, ph, geom, ends, zs, zr, spherical, crs) -> pd.Dat
         "incidence_deg": vals["incidence_deg"], "ray_parameter_s_per_km": vals["p_s_per_m"] * 1e3,
         "elevation_static_s": vals["elevation_static_s"], "method": method,
     })
+
+
+def _compare_methods(ctx: Context, model, phases: list[str], shots: pd.DataFrame, stations: pd.DataFrame) -> None:
+    """Reflection times of the 2D ray tracer against the multistage eikonal scheme, for the path shots.
+
+    Both are computed for the same source and receivers in the section plane (on the model surface, without
+    the elevation static), flat Earth; a large difference points to a model or grid problem.
+    """
+    from ..model.eikonal import phase_times
+
+    if not phases or model.top != "dem":
+        return
+    sh = shots[(shots["status"] == "ok") & shots["id"].isin(ctx.artefacts.get("_path_shots", set()))]
+    st = stations[stations["status"] == "ok"]
+    if sh.empty or st.empty:
+        return
+    surf = model.interface_names[0]
+    cr = st["chainage_m"].to_numpy(float)
+    zr = np.asarray(model.interface_depth(surf, cr), float)
+    hole = np.nan_to_num(sh["depth_m"].to_numpy(float), nan=0.0) if "depth_m" in sh else np.zeros(len(sh))
+    tracer = _tracer(ctx, model, False)
+    rows = []
+    for p in phases:
+        diffs = []
+        for k, (_, shot) in enumerate(sh.iterrows()):  # a loop over (at most three) shots
+            cs = float(shot["chainage_m"])
+            zs = float(model.interface_depth(surf, np.array([cs]))[0]) + float(hole[k])
+            t_ray = tracer.trace(cs, zs, cr, zr, p, max_gap_m=MAX_GAP_M).time_s
+            t_fmm, _ = phase_times(model, cs, zs, cr, zr, p, spacing_m=ctx.settings.rays.grid_spacing_m)
+            both = np.isfinite(t_ray) & np.isfinite(t_fmm)
+            diffs.append((t_fmm - t_ray)[both])
+        d = np.concatenate(diffs) if diffs else np.zeros(0)
+        if d.size:
+            rows.append((p, len(sh), d.size, f"{np.median(d) * 1e3:+.1f}", f"{np.sqrt(np.mean(d ** 2)) * 1e3:.1f}",
+                         f"{np.max(np.abs(d)) * 1e3:.1f}", int((np.abs(d) > 0.020).sum())))
+    if rows:
+        sec = ctx.report.section("Rays")
+        sec.text("Reflection times of the two 2D methods compared (eikonal multistage minus ray tracer, flat Earth, "
+                 "the shots whose rays are drawn). Differences of more than a few tens of ms point to a model or "
+                 "grid problem (docs/methods-eikonal.md).")
+        sec.table(["phase", "shots", "receivers with both", "median (ms)", "RMS (ms)", "largest (ms)",
+                   "differing by > 20 ms"], rows, escape=False)
+        sec.text("Where they differ by more than 20 ms, look for triplications (flag multiple_branches: the ray "
+                 "tracer returns the earliest branch it finds, the eikonal scheme the earliest time on its grid) "
+                 "and for kinks or steep ramps in the interface.")
 
 
 def _report(ctx, rp, counts, phases, spherical_used, recorded) -> None:

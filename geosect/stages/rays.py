@@ -429,9 +429,10 @@ def _compare_methods(ctx: Context, model, phases: list[str], shots: pd.DataFrame
                  "grid problem (docs/methods-eikonal.md).")
         sec.table(["phase", "shots", "receivers with both", "median (ms)", "RMS (ms)", "largest (ms)",
                    "differing by > 20 ms"], rows, escape=False)
-        sec.text("Where they differ by more than 20 ms, look for triplications (flag multiple_branches: the ray "
-                 "tracer returns the earliest branch it finds, the eikonal scheme the earliest time on its grid) "
-                 "and for kinks or steep ramps in the interface.")
+        sec.text("Where they differ by more than 20 ms, look for kinks and steep ramps in the interface: the "
+                 "eikonal scheme gives the earliest energy leaving the interface, diffractions from its corners "
+                 "included, while the ray tracer follows specular reflections only (on the sample model, shots "
+                 "north of the Moho ramp recorded south of it); and for triplications (flag multiple_branches).")
 
 
 def _report(ctx, rp, counts, phases, spherical_used, recorded) -> None:

@@ -81,11 +81,9 @@ def _place(ctx: Context, name: str) -> pd.DataFrame:
                         ambiguity_m=s.line.ambiguity_m)
     f["chainage_m"] = placed["chainage_m"].to_numpy()
     f["crossline_m"] = placed["crossline_m"].to_numpy()
-    flags = f["flags"].astype(str)
-    for flag_col in [placed["flags"].astype(str)]:
-        cur = flags.to_numpy(dtype=object)
-        new = flag_col.to_numpy(dtype=object)
-        flags = pd.Series(np.where(cur == "", new, np.where(new == "", cur, cur + ";" + new)), index=f.index)
+    cur = f["flags"].astype(str).to_numpy(dtype=object)
+    new = placed["flags"].astype(str).to_numpy(dtype=object)
+    flags = pd.Series(np.where(cur == "", new, np.where(new == "", cur, cur + ";" + new)), index=f.index)
     z, why = _dem_heights(ctx, f)
     usable = f["status"].to_numpy() == "ok"
     f["dem_elevation_m"] = np.where(usable, z, np.nan)

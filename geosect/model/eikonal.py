@@ -994,11 +994,11 @@ class _Solver:
 # =============================================================================== reading
 
 
-def _bilinear(setup: _Setup, st: _Stage | None, x: np.ndarray, z: np.ndarray) -> np.ndarray:
-    """Bilinear interpolation of a stage's times at points; finite corners only."""
-    out = np.full(x.shape, np.inf)
-    if st is None or x.size == 0:
-        return out
+def _corners(setup: _Setup, st: _Stage, x: np.ndarray, z: np.ndarray):
+    """The four grid corners around each point and their bilinear weights, in a stage's rows.
+
+    Returns ``([(row, column, weight) x 4], fractional row, rows in the stage)``.
+    """
     g = setup.grid
     fx = (x - g.x0) / g.h
     fz = (z - g.z0) / g.h - st.r0
@@ -1009,10 +1009,20 @@ def _bilinear(setup: _Setup, st: _Stage | None, x: np.ndarray, z: np.ndarray) ->
     wz = np.clip(fz - j0, 0.0, 1.0)
     i1 = np.minimum(i0 + 1, g.nx - 1)
     j1 = np.minimum(j0 + 1, nr - 1)
+    corners = ((j0, i0, (1 - wz) * (1 - wx)), (j0, i1, (1 - wz) * wx),
+               (j1, i0, wz * (1 - wx)), (j1, i1, wz * wx))
+    return corners, fz, nr
+
+
+def _bilinear(setup: _Setup, st: _Stage | None, x: np.ndarray, z: np.ndarray) -> np.ndarray:
+    """Bilinear interpolation of a stage's times at points; finite corners only."""
+    out = np.full(x.shape, np.inf)
+    if st is None or x.size == 0:
+        return out
+    corners, fz, nr = _corners(setup, st, x, z)
     num = np.zeros(x.shape)
     den = np.zeros(x.shape)
-    for jj, ii, w in ((j0, i0, (1 - wz) * (1 - wx)), (j0, i1, (1 - wz) * wx),
-                      (j1, i0, wz * (1 - wx)), (j1, i1, wz * wx)):
+    for jj, ii, w in corners:
         t = st.T[jj, ii]
         fin = np.isfinite(t)
         num += np.where(fin, w * np.where(fin, t, 0.0), 0.0)
@@ -1550,21 +1560,12 @@ def _interp_cols(setup: _Setup, arr: np.ndarray, x: np.ndarray) -> np.ndarray:
 def _grad_at(setup: _Setup, st: _Stage, x: np.ndarray, z: np.ndarray):
     g = setup.grid
     gx, gz = st.gradient(g.h)
-    fx = (x - g.x0) / g.h
-    fz = (z - g.z0) / g.h - st.r0
-    nr = st.T.shape[0]
-    i0 = np.clip(np.floor(fx).astype(int), 0, max(g.nx - 2, 0))
-    j0 = np.clip(np.floor(fz).astype(int), 0, max(nr - 2, 0))
-    wx = np.clip(fx - i0, 0.0, 1.0)
-    wz = np.clip(fz - j0, 0.0, 1.0)
-    i1 = np.minimum(i0 + 1, g.nx - 1)
-    j1 = np.minimum(j0 + 1, nr - 1)
+    corners, _, _ = _corners(setup, st, x, z)
     fin = np.isfinite(st.T)
     ax = np.zeros(x.shape)
     az = np.zeros(x.shape)
     den = np.zeros(x.shape)
-    for jj, ii, w in ((j0, i0, (1 - wz) * (1 - wx)), (j0, i1, (1 - wz) * wx),
-                      (j1, i0, wz * (1 - wx)), (j1, i1, wz * wx)):
+    for jj, ii, w in corners:
         f = fin[jj, ii]
         ax += np.where(f, w * gx[jj, ii], 0.0)
         az += np.where(f, w * gz[jj, ii], 0.0)
